@@ -1,0 +1,43 @@
+/* SPDX-License-Identifier: GPL-3.0-or-later */
+/* Private helpers shared by the library's modules; not installed. */
+#ifndef TWOFOLD_INTERNAL_H
+#define TWOFOLD_INTERNAL_H
+
+#include "twofold.h"
+
+#include <stdarg.h>
+#include <stddef.h>
+
+/* Largest count accepted: 2^53, the last integer a double holds exactly. */
+#define TF_COUNT_MAX 9007199254740992.0
+
+/* Size of the detailed message kept on handles. */
+#define TF_ERRMSG_SIZE 512
+
+/* Fill err (which may be NULL) with code, position and a formatted text;
+ * the text is prefixed "FILE:LINE:COLUMN: " where those are known.
+ * Returns code, so callers can write  return tf_error_set(...); */
+int tf_error_set(twofold_error *err, int code, const char *file, long line,
+                 long column, const char *fmt, ...)
+#if defined(__GNUC__)
+    __attribute__((format(printf, 6, 7)))
+#endif
+    ;
+
+/* Format a message into a handle's buffer (size TF_ERRMSG_SIZE). */
+int tf_msg_set(char *buf, int code, const char *fmt, ...)
+#if defined(__GNUC__)
+    __attribute__((format(printf, 3, 4)))
+#endif
+    ;
+
+/* strdup that returns NULL on failure (strdup is not C11). */
+char *tf_strdup(const char *s);
+
+/* 1 if v is NaN or a whole number in [0, 2^53]. */
+int tf_count_ok(double v);
+
+/* Test for NaN without depending on -ffast-math semantics. */
+static inline int tf_isnan(double v) { return v != v; }
+
+#endif
