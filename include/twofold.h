@@ -281,12 +281,196 @@ TWOFOLD_API int twofold_read_memory(const void *data, size_t size,
 /* ------------------------------------------------------------------ */
 /* Growth: windowed log-linear fits                                    */
 /* ------------------------------------------------------------------ */
-/* (declared by the growth module; see below) */
+/*
+ * On a window of n days of one series, fit by maximum likelihood
+ *     log mu_t = a + r*t [+ w_weekday(t)] [+ offset_t]
+ * with y_t ~ Poisson(mu_t) (standard errors scaled by the quasi-Poisson
+ * dispersion X^2/(n-p) when the model is TWOFOLD_MODEL_QUASIPOISSON) or
+ * negative binomial NB2, Var y = mu + mu^2/theta, theta by maximum
+ * likelihood.  r is the growth rate per day; the doubling time is ln 2 / r.
+ */
+
+/* The count model. */
+typedef enum twofold_model {
+  TWOFOLD_MODEL_POISSON = 0,      /* plain Poisson likelihood            */
+  TWOFOLD_MODEL_QUASIPOISSON = 1, /* Poisson fit, dispersion-scaled SEs  */
+  TWOFOLD_MODEL_NEGBIN = 2        /* NB2, theta by maximum likelihood    */
+} twofold_model;
+
+/* Kinds of interval for the growth rate. */
+typedef enum twofold_interval {
+  TWOFOLD_INTERVAL_DEFAULT = 0, /* the library's recommended interval   */
+  TWOFOLD_INTERVAL_WALD = 1,    /* r +- z * SE                          */
+  TWOFOLD_INTERVAL_PROFILE = 2, /* profile likelihood                   */
+  TWOFOLD_INTERVAL_SMALL = 3    /* small-sample corrected (see man page) */
+} twofold_interval;
+
+/* Window alignment for rolling estimates. */
+typedef enum twofold_align {
+  TWOFOLD_ALIGN_TRAILING = 0, /* day i uses days i-w+1 .. i            */
+  TWOFOLD_ALIGN_CENTRED = 1   /* day i uses days i-(w-1)/2 .. i+w/2    */
+} twofold_align;
+
+/* Names of the enums and back ("poisson", "quasipoisson", "negbin";
+ * "default", "wald", "profile", "small"; "trailing", "centred").  The
+ * _to_string functions return NULL for unknown values, the _from_string
+ * functions TWOFOLD_EINVAL for unknown names. */
+TWOFOLD_API const char *twofold_model_to_string(int model);
+TWOFOLD_API int twofold_model_from_string(const char *name);
+TWOFOLD_API const char *twofold_interval_to_string(int kind);
+TWOFOLD_API int twofold_interval_from_string(const char *name);
+TWOFOLD_API const char *twofold_align_to_string(int align);
+TWOFOLD_API int twofold_align_from_string(const char *name);
+
+/* Fit options.  Defaults: model NEGBIN, level 0.95, weekday effects on,
+ * interval DEFAULT, minimum events TWOFOLD_MIN_EVENTS_DEFAULT, 50
+ * iterations, tolerance 1e-10. */
+typedef struct twofold_fit_options twofold_fit_options;
+
+TWOFOLD_API int twofold_fit_options_new(twofold_fit_options **out);
+TWOFOLD_API void twofold_fit_options_free(twofold_fit_options *o);
+TWOFOLD_API int twofold_fit_options_copy(const twofold_fit_options *o,
+                                         twofold_fit_options **out);
+TWOFOLD_API int twofold_fit_options_set_model(twofold_fit_options *o,
+                                              int model);
+TWOFOLD_API int twofold_fit_options_get_model(const twofold_fit_options *o);
+/* Interval level in (0, 1). */
+TWOFOLD_API int twofold_fit_options_set_level(twofold_fit_options *o,
+                                              double level);
+TWOFOLD_API double twofold_fit_options_get_level(
+    const twofold_fit_options *o);
+/* Day-of-week effects on (1) or off (0). */
+TWOFOLD_API int twofold_fit_options_set_weekday(twofold_fit_options *o,
+                                                int on);
+TWOFOLD_API int twofold_fit_options_get_weekday(
+    const twofold_fit_options *o);
+/* Which interval twofold_fit_interval(fit, TWOFOLD_INTERVAL_DEFAULT, ...)
+ * returns. */
+TWOFOLD_API int twofold_fit_options_set_interval(twofold_fit_options *o,
+                                                 int kind);
+TWOFOLD_API int twofold_fit_options_get_interval(
+    const twofold_fit_options *o);
+/* Fewer events than this in the window gives TWOFOLD_EFEWEVENTS. */
+#define TWOFOLD_MIN_EVENTS_DEFAULT 20
+TWOFOLD_API int twofold_fit_options_set_min_events(twofold_fit_options *o,
+                                                   double events);
+TWOFOLD_API double twofold_fit_options_get_min_events(
+    const twofold_fit_options *o);
+TWOFOLD_API int twofold_fit_options_set_max_iterations(
+    twofold_fit_options *o, int iterations);
+TWOFOLD_API int twofold_fit_options_set_tolerance(twofold_fit_options *o,
+                                                  double tolerance);
+
+/* Flags describing a successful fit (bit mask). */
+#define TWOFOLD_FIT_MISSING_DAYS 0x1u  /* some days in the window missing  */
+#define TWOFOLD_FIT_THETA_CAPPED 0x2u  /* NB theta at its cap (Poisson-like)*/
+#define TWOFOLD_FIT_LARGE_COUNTS 0x4u  /* counts large: compensated sums   */
+
+/* A fit result, reusable across calls.  Caller frees. */
+typedef struct twofold_fit twofold_fit;
+
+TWOFOLD_API int twofold_fit_new(twofold_fit **out);
+TWOFOLD_API void twofold_fit_free(twofold_fit *fit);
+
+/* Fit the window y[0..n-1] (NaN = missing day, fitted on the days
+ * present).  offset may be NULL (no offset) or hold n log-offsets.
+ * first_weekday is the ISO weekday (1..7) of y[0].  Returns 0 or a status
+ * such as TWOFOLD_EZERO, TWOFOLD_EFEWEVENTS, TWOFOLD_EWEEKDAY,
+ * TWOFOLD_ESEPARATION, TWOFOLD_ENOCONV, TWOFOLD_ENODATA; the status is
+ * also kept in the fit (twofold_fit_status) with a message
+ * (twofold_fit_errmsg). */
+TWOFOLD_API int twofold_growth_fit(twofold_fit *fit,
+                                   const twofold_fit_options *o,
+                                   const double *y, const double *offset,
+                                   size_t n, int first_weekday);
+
+TWOFOLD_API int twofold_fit_status(const twofold_fit *fit);
+/* The message of the last failure ("" after success); borrowed. */
+TWOFOLD_API const char *twofold_fit_errmsg(const twofold_fit *fit);
+TWOFOLD_API unsigned int twofold_fit_flags(const twofold_fit *fit);
+TWOFOLD_API int twofold_fit_model(const twofold_fit *fit);
+/* Growth rate per day and its standard error (model-based; quasi-Poisson
+ * scaled where that model is chosen). */
+TWOFOLD_API double twofold_fit_rate(const twofold_fit *fit);
+TWOFOLD_API double twofold_fit_rate_se(const twofold_fit *fit);
+/* Interval for r of the given kind at the options' level. */
+TWOFOLD_API int twofold_fit_interval(const twofold_fit *fit, int kind,
+                                     double *lo, double *hi);
+TWOFOLD_API double twofold_fit_level(const twofold_fit *fit);
+/* Log-level a at the window's first day (weekday effects sum to zero). */
+TWOFOLD_API double twofold_fit_intercept(const twofold_fit *fit);
+/* Weekday effect (log scale) of ISO weekday 1..7; 0 if off. */
+TWOFOLD_API double twofold_fit_weekday_effect(const twofold_fit *fit,
+                                              int weekday);
+/* NB theta (INFINITY for Poisson models) and the Pearson dispersion
+ * X^2/(n-p). */
+TWOFOLD_API double twofold_fit_theta(const twofold_fit *fit);
+TWOFOLD_API double twofold_fit_dispersion(const twofold_fit *fit);
+TWOFOLD_API double twofold_fit_loglik(const twofold_fit *fit);
+TWOFOLD_API double twofold_fit_deviance(const twofold_fit *fit);
+TWOFOLD_API int twofold_fit_iterations(const twofold_fit *fit);
+TWOFOLD_API double twofold_fit_events(const twofold_fit *fit);
+TWOFOLD_API size_t twofold_fit_days_used(const twofold_fit *fit);
+TWOFOLD_API size_t twofold_fit_days_missing(const twofold_fit *fit);
+/* Residual degrees of freedom (days used minus parameters). */
+TWOFOLD_API double twofold_fit_df_residual(const twofold_fit *fit);
+
+/* Doubling or halving time from a growth rate r and its interval
+ * [r_lo, r_hi].  *sense is +1 (doubling: r > 0), -1 (halving: r < 0) or 0
+ * (r == 0).  *time = ln 2 / |r| (INFINITY when r == 0).  The interval is in
+ * the same sense: for doubling [ln 2 / r_hi, ln 2 / r_lo]; when r_lo <= 0
+ * the upper end is INFINITY (no bound: the data are consistent with no
+ * growth).  Halving mirrors this with |r|.  Times are never negative and
+ * never NaN.  Any of the out pointers may be NULL. */
+TWOFOLD_API int twofold_doubling_time(double r, double r_lo, double r_hi,
+                                      double *time, double *time_lo,
+                                      double *time_hi, int *sense);
+
+/* Rolling window fits over a whole series y[0..n-1] (NaN = missing), with
+ * windows of w days aligned as align says.  For each day i the outputs
+ * (each may be NULL; else n elements, caller-owned) get the growth rate,
+ * its interval of the options' default kind and the fit status (0 or a
+ * TWOFOLD_E... code; rate and bounds are NaN where status != 0 or the
+ * window does not fit in the series). */
+TWOFOLD_API int twofold_growth_roll(const twofold_fit_options *o,
+                                    const double *y, const double *offset,
+                                    size_t n, int first_weekday, size_t w,
+                                    int align, double *rate, double *rate_lo,
+                                    double *rate_hi, int *status);
+
 
 /* ------------------------------------------------------------------ */
 /* Transmission: growth rate to reproduction number                    */
 /* ------------------------------------------------------------------ */
-/* (declared by the transmission module; see below) */
+/*
+ * Wallinga J, Lipsitch M (2007). How generation intervals shape the
+ * relationship between growth rates and reproductive numbers. Proc R Soc B
+ * 274:599-604.  R = 1 / M(-r), M the moment generating function of the
+ * generation-interval distribution.
+ */
+typedef struct twofold_gi twofold_gi;
+
+/* A gamma generation interval by mean and standard deviation (days, both
+ * > 0).  Caller frees. */
+TWOFOLD_API int twofold_gi_new_gamma(double mean, double sd,
+                                     twofold_gi **out);
+/* A discrete generation interval: p[k] is the probability of k+1 days,
+ * k = 0..n-1 (non-negative, normalised by the library).  Caller frees. */
+TWOFOLD_API int twofold_gi_new_discrete(const double *p, size_t n,
+                                        twofold_gi **out);
+TWOFOLD_API void twofold_gi_free(twofold_gi *gi);
+TWOFOLD_API double twofold_gi_mean(const twofold_gi *gi);
+TWOFOLD_API double twofold_gi_sd(const twofold_gi *gi);
+/* R for growth rate r.  TWOFOLD_ERANGE where M(-r) does not exist (gamma:
+ * r <= -rate). */
+TWOFOLD_API int twofold_gi_reproduction(const twofold_gi *gi, double r,
+                                        double *R);
+/* R and its interval from r and r's interval (R is increasing in r). */
+TWOFOLD_API int twofold_gi_reproduction_interval(const twofold_gi *gi,
+                                                 double r, double r_lo,
+                                                 double r_hi, double *R,
+                                                 double *R_lo, double *R_hi);
+
 
 /* ------------------------------------------------------------------ */
 /* Changepoints in the growth rate                                     */
