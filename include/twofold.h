@@ -421,10 +421,17 @@ TWOFOLD_API int twofold_fit_options_set_min_events(twofold_fit_options *o,
                                                    double events);
 TWOFOLD_API double twofold_fit_options_get_min_events(
     const twofold_fit_options *o);
+/* Iteration limit (1..100000; default 50) for each Newton loop. */
 TWOFOLD_API int twofold_fit_options_set_max_iterations(
     twofold_fit_options *o, int iterations);
+TWOFOLD_API int twofold_fit_options_get_max_iterations(
+    const twofold_fit_options *o);
+/* Convergence tolerance in (0, 1) (default 1e-10): Newton stops when the
+ * Newton decrement g' H^-1 g (log-likelihood units) falls below it. */
 TWOFOLD_API int twofold_fit_options_set_tolerance(twofold_fit_options *o,
                                                   double tolerance);
+TWOFOLD_API double twofold_fit_options_get_tolerance(
+    const twofold_fit_options *o);
 
 /* Flags describing a successful fit (bit mask). */
 #define TWOFOLD_FIT_MISSING_DAYS 0x1u  /* some days in the window missing  */
@@ -470,6 +477,9 @@ TWOFOLD_API double twofold_fit_weekday_effect(const twofold_fit *fit,
 /* NB theta (INFINITY for Poisson models) and the Pearson dispersion
  * X^2/(n-p). */
 TWOFOLD_API double twofold_fit_theta(const twofold_fit *fit);
+/* NB: theta from the Cox-Reid adjusted profile likelihood, the one the
+ * small-sample interval uses (NaN for Poisson models). */
+TWOFOLD_API double twofold_fit_theta_adjusted(const twofold_fit *fit);
 TWOFOLD_API double twofold_fit_dispersion(const twofold_fit *fit);
 TWOFOLD_API double twofold_fit_loglik(const twofold_fit *fit);
 TWOFOLD_API double twofold_fit_deviance(const twofold_fit *fit);
