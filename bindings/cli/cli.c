@@ -287,8 +287,12 @@ static void fmt_shortest(char *out, size_t size, double v) {
   for (int p = 1; p <= 17; p++) {
     snprintf(out, size, "%.*g", p, v);
     if (strtod(out, NULL) == v)
-      return;
+      break;
   }
+  /* %g writes 90 as "9e+01": a whole number below 1e17 reads better in
+   * full, and "%.0f" of it is exact. */
+  if (strchr(out, 'e') != NULL && fabs(v) >= 1 && fabs(v) < 1e17)
+    snprintf(out, size, "%.0f", v);
 }
 
 /* A finite double with prec decimals (prec < 0: shortest round trip). */

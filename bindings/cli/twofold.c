@@ -243,15 +243,15 @@ static int parse_args(int argc, char **argv, options *o) {
     case 'V':
       return tf_cli_print_version();
     case ':':
-      if (optopt)
-        return tf_cli_usage_error("option -%c needs an argument", optopt);
-      return tf_cli_usage_error("option %s needs an argument",
-                                argv[optind - 1]);
+      if (strncmp(argv[optind - 1], "--", 2) == 0)
+        return tf_cli_usage_error("option %s needs an argument",
+                                  argv[optind - 1]);
+      return tf_cli_usage_error("option -%c needs an argument", optopt);
     default:
-      if (optopt)
-        return tf_cli_usage_error("unknown option -%c", optopt);
-      return tf_cli_usage_error("unknown or ambiguous option %s",
-                                argv[optind - 1]);
+      if (strncmp(argv[optind - 1], "--", 2) == 0)
+        return tf_cli_usage_error("unknown or ambiguous option %s",
+                                  argv[optind - 1]);
+      return tf_cli_usage_error("unknown option -%c", optopt);
     }
   }
   if (o->summary && (o->every_day || o->have_gi || o->offset))
@@ -531,11 +531,9 @@ static const tf_column growth_cols[] = {
 #define NGROWTH (sizeof growth_cols / sizeof growth_cols[0])
 #define GROWTH_R_FIRST 20 /* index of "reproduction" */
 
-/* The aligned table for people: fewer, rounded columns (see twofold(1)).
- * The interval headers are filled in from the level. */
-enum { TC_REGION, TC_DATE, TC_RATE, TC_RATE_CI, TC_TIME, TC_TIME_CI, TC_R,
-       TC_R_CI, TC_TREND, TC_N };
-
+/* The aligned table for people has fewer, rounded columns, so that it
+ * fits 80 columns with region names of up to 20 characters (see
+ * twofold(1)); the interval header is made from the level. */
 static size_t record_columns(const options *o, tf_column *cols,
                              char *ci_header, size_t size) {
   size_t n = 0;
@@ -553,7 +551,6 @@ static size_t record_columns(const options *o, tf_column *cols,
   cols[n++] = (tf_column){"%/day", TF_ALIGN_RIGHT};
   cols[n++] = (tf_column){ci_header, TF_ALIGN_LEFT};
   cols[n++] = (tf_column){"dbl/hlv", TF_ALIGN_RIGHT};
-  cols[n++] = (tf_column){ci_header, TF_ALIGN_LEFT};
   if (o->have_gi) {
     cols[n++] = (tf_column){"R", TF_ALIGN_RIGHT};
     cols[n++] = (tf_column){ci_header, TF_ALIGN_LEFT};
@@ -582,7 +579,7 @@ static int write_estimate(const options *o, tf_writer *w, const target *t,
   const char *trend = trend_of(e, tbuf, sizeof tbuf);
   const char *region = twofold_series_region(t->s);
   if (o->format == TF_FORMAT_TABLE) {
-    char r_ci[80], t_ci[80], R_ci[80];
+    char r_ci[80], R_ci[80];
     /* Doubling or halving times only where the trend is clear: when the
      * interval for r holds 0 the data are consistent with no change, and
      * the growth rate, not a time, is the figure to report. */
@@ -593,9 +590,6 @@ static int write_estimate(const options *o, tf_writer *w, const target *t,
     c[n++] = tf_cell_str(
         range_text(r_ci, sizeof r_ci, 100 * e->lo, 100 * e->hi, 1, 1));
     c[n++] = clear ? tf_cell_dbl(e->t, 1) : tf_cell_null();
-    c[n++] = clear ? tf_cell_str(range_text(t_ci, sizeof t_ci, e->t_lo,
-                                            e->t_hi, 1, 0))
-                   : tf_cell_null();
     if (o->have_gi) {
       c[n++] = tf_cell_dbl(e->R, 2);
       c[n++] = tf_cell_str(range_text(R_ci, sizeof R_ci, e->R_lo, e->R_hi, 2, 0));
@@ -802,7 +796,7 @@ static int run(const options *o, char **files, size_t nfiles) {
   if (st == TF_EXIT_OK && tf_writer_finish(w) != 0)
     st = -1;
   if (st == -1) {
-    tf_cli_msg("cannot write %s: %s",
+    tf_cli_msg("cannot write to %s: %s",
                o->output && strcmp(o->output, "-") ? o->output
                                                    : "standard output",
                strerror(errno));
