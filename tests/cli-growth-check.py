@@ -94,10 +94,12 @@ def check_record(rec):
 def fmt(x, plus=False):
     if x is None:
         return "-"
+    # Signed cells show the sign of any non-zero value ("+0.0" for 0.01);
+    # unsigned ones never show "-0.0".
+    if x == 0:
+        return "0.0"
     s = f"{x:+.1f}" if plus else f"{x:.1f}"
-    if s in ("-0.0", "+0.0"):
-        s = "0.0"
-    return s
+    return "0.0" if s == "-0.0" else s
 
 
 def check_table(records, path):

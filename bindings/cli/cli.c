@@ -301,8 +301,9 @@ static void fmt_number(char *out, size_t size, double v, int prec, int plus) {
     fmt_shortest(out, size, v);
   else
     snprintf(out, size, "%.*f", prec, v);
-  /* "-0.0" reads as a sign without a size: write it unsigned. */
-  if (out[0] == '-') {
+  /* "-0.0" reads as a sign without a size: write it unsigned, unless
+   * signs were asked for, when it tells a small negative number. */
+  if (out[0] == '-' && (!plus || v == 0)) {
     int zero = 1;
     for (const char *q = out + 1; *q; q++)
       if (*q >= '1' && *q <= '9') {
@@ -312,9 +313,9 @@ static void fmt_number(char *out, size_t size, double v, int prec, int plus) {
     if (zero)
       memmove(out, out + 1, strlen(out));
   }
-  if (plus && out[0] != '-') {
+  if (plus && v > 0) {
     size_t n = strlen(out);
-    if (n + 2 <= size && !(out[0] == '0' && strspn(out, "0.") == n)) {
+    if (n + 2 <= size) {
       memmove(out + 1, out, n + 1);
       out[0] = '+';
     }

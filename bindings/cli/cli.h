@@ -114,8 +114,8 @@ typedef struct tf_cell {
    * the shortest text that reads back as the same double).  A negative
    * value writes the shortest round-trip text in every format. */
   int prec;
-  /* For TF_CELL_DBL in tables, TSV and CSV: 1 to write a '+' before
-   * positive numbers. */
+  /* For TF_CELL_DBL in tables, TSV and CSV: 1 to write the sign of every
+   * non-zero number, even where it rounds to zero ("+0.0", "-0.0"). */
   int plus;
   const char *s;
   long long i;
@@ -178,8 +178,10 @@ void tf_output_abort(tf_output *o);
 /* ------------------------------------------------------------------ */
 
 /* A finite number with prec decimals (prec < 0: the shortest text that
- * reads back exactly), a '+' before positive numbers if plus; "inf" and
- * "-inf" for infinities, "-" for NaN.  Negative zero is written "0".
+ * reads back exactly); if plus, the sign of every non-zero number, even
+ * where it rounds to zero; "inf" and "-inf" for infinities, "-" for NaN.
+ * Zero, and without plus a negative number that rounds to zero, is
+ * written unsigned.
  * out holds >= 32 bytes. */
 const char *tf_cli_format_number(char *out, size_t size, double v, int prec,
                                  int plus);
