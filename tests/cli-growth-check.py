@@ -98,7 +98,9 @@ def fmt(x, plus=False):
     # unsigned ones never show "-0.0".
     if x == 0:
         return "0.0"
-    s = f"{x:+.1f}" if plus else f"{x:.1f}"
+    if plus:
+        return f"{x:+.1f}"
+    s = f"{x:.1f}"
     return "0.0" if s == "-0.0" else s
 
 
