@@ -873,6 +873,31 @@ void tf_output_abort(tf_output *o) {
   output_free(o);
 }
 
+/* Make the rename itself durable: sync the folder that holds path.  A
+ * failure here cannot undo the rename and is not reported. */
+static void sync_folder(const char *path) {
+  const char *slash = strrchr(path, '/');
+  char *dir = NULL;
+  if (slash == NULL) {
+    dir = dup_text(".");
+  } else {
+    size_t n = slash == path ? 1 : (size_t)(slash - path);
+    dir = malloc(n + 1);
+    if (dir != NULL) {
+      memcpy(dir, path, n);
+      dir[n] = '\0';
+    }
+  }
+  if (dir == NULL)
+    return;
+  int fd = open(dir, O_RDONLY);
+  if (fd >= 0) {
+    (void)fsync(fd);
+    close(fd);
+  }
+  free(dir);
+}
+
 int tf_output_commit(tf_output *o) {
   if (o->tmp == NULL) {
     /* Standard output, or a device or pipe written directly. */
@@ -913,6 +938,7 @@ int tf_output_commit(tf_output *o) {
   }
   pending_tmp = NULL;
   catch_signals(0);
+  sync_folder(o->path);
   output_free(o);
   return TF_EXIT_OK;
 }
