@@ -355,7 +355,7 @@ def doubling_time(rate, rate_lo=None, rate_hi=None):
     return DoublingTime(t, tl, th, sense)
 
 
-def latest_growth(regions, window=28, column=None, **options):
+def latest_growth(regions, window, column=None, **options):
     """Fit the last window days of every region.
 
     regions: a dict region -> DailySeries (as read_csv and from_frame
