@@ -23,7 +23,12 @@ PC
 export PKG_CONFIG_PATH="$tmp/pkgconfig${PKG_CONFIG_PATH:+:$PKG_CONFIG_PATH}"
 export LD_LIBRARY_PATH="$libdir${LD_LIBRARY_PATH:+:$LD_LIBRARY_PATH}"
 # Keep R away from the user's library and profile.
-export R_LIBS_USER="$tmp/nolib" R_ENVIRON_USER="$tmp/none" R_PROFILE_USER="$tmp/none"
+# An empty local package repository: R CMD check's dependency check reads
+# it instead of the network.
+mkdir -p "$tmp/repo/src/contrib"
+: >"$tmp/repo/src/contrib/PACKAGES"
+printf 'options(repos = c(LOCAL = "file://%s/repo"))\n' "$tmp" >"$tmp/Rprofile"
+export R_LIBS_USER="$tmp/nolib" R_ENVIRON_USER="$tmp/none" R_PROFILE_USER="$tmp/Rprofile"
 # A writable copy of the package sources (the source tree may be read-only).
 rm -rf "$tmp/src"
 mkdir -p "$tmp/src"
