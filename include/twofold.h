@@ -461,11 +461,15 @@ TWOFOLD_API int twofold_gi_new_discrete(const double *p, size_t n,
 TWOFOLD_API void twofold_gi_free(twofold_gi *gi);
 TWOFOLD_API double twofold_gi_mean(const twofold_gi *gi);
 TWOFOLD_API double twofold_gi_sd(const twofold_gi *gi);
-/* R for growth rate r.  TWOFOLD_ERANGE where M(-r) does not exist (gamma:
- * r <= -rate). */
+/* R for growth rate r (finite, per day).  TWOFOLD_ERANGE where M(-r) does
+ * not exist (gamma: r <= -rate, rate = mean/sd^2) or R overflows a double;
+ * *R is NaN after any failure. */
 TWOFOLD_API int twofold_gi_reproduction(const twofold_gi *gi, double r,
                                         double *R);
-/* R and its interval from r and r's interval (R is increasing in r). */
+/* R and its interval from r and r's interval (R is increasing in r).
+ * Needs r_lo <= r <= r_hi, all finite (else TWOFOLD_EINVAL); TWOFOLD_ERANGE
+ * if R does not exist at any of the three.  All out pointers are
+ * required; they are NaN after any failure. */
 TWOFOLD_API int twofold_gi_reproduction_interval(const twofold_gi *gi,
                                                  double r, double r_lo,
                                                  double r_hi, double *R,
