@@ -479,7 +479,283 @@ TWOFOLD_API int twofold_gi_reproduction_interval(const twofold_gi *gi,
 /* ------------------------------------------------------------------ */
 /* Changepoints in the growth rate                                     */
 /* ------------------------------------------------------------------ */
-/* (declared by the changepoint module; see below) */
+/*
+ * Model (libtwofold(3), "Changepoints"): on day t of one series
+ *     log mu_t = eta_t + delta_weekday(t),   y_t ~ Poisson(mu_t) tempered by
+ * a dispersion phi >= 1 (each day's log-likelihood divided by phi), with
+ * eta_t piecewise linear between changepoints.  The weekday effects delta
+ * (sum to zero) and phi are estimated once per series (a Poisson fit with a
+ * log-linear trend in 14-day blocks plus weekday effects; phi is a robust,
+ * winsorized Pearson X^2/df, floored at 1) and held fixed in the
+ * recursions.  Segment kinds:
+ *   KINK  the growth rate changes, the log-level is continuous (the
+ *         default: a change in transmission);
+ *   JUMP  level and growth rate both free after a change (a change in
+ *         reporting or case definition);
+ *   LEVEL growth fixed at zero: the classical change in a constant rate.
+ * Priors: the growth rate b of a segment ~ Normal(mean, sd) (default 0,
+ * 0.1/day); the count level lambda (weekday-neutral mean count at the
+ * segment's middle day; KINK: exp of the log-level at the series start)
+ * ~ Gamma(alpha, rate beta), default alpha = 1 and beta = alpha / (the
+ * series' mean count), so the prior scales with the series.  Segment
+ * lengths: at least min_segment days (default 7), then negative binomial
+ * with shape k (default 2; k = 1 with min_segment 1 is the geometric prior,
+ * i.e. independent changes), mean 365.25 / changes_per_year days (default
+ * 4 changes per year); the first segment uses the stationary length law,
+ * so the prior probability of a change is the same on every day.
+ * Inference: JUMP and LEVEL by the exact recursions of Fearnhead (2006,
+ * Statistics and Computing 16:203-213) on segment marginal likelihoods
+ * (LEVEL: exact conjugate; JUMP: exact in the level, Laplace in the growth
+ * rate), with Fearnhead's pruning; KINK by the same forward/backward
+ * recursions on a grid of log-levels at each changepoint (exact tempered
+ * Poisson likelihood between grid knots, trapezoid quadrature over the
+ * knots).  Online: the particle filter of Fearnhead & Liu (2007, JRSS B
+ * 69:589-605) with stratified optimal resampling.
+ *
+ * Day convention: a change "on day i" (0-based index in the series) means
+ * day i is the first day of the new growth regime (so day 0 never carries
+ * a change).
+ */
+
+/* Segment kinds. */
+typedef enum twofold_cp_kind {
+  TWOFOLD_CP_KINK = 0,  /* growth changes, log-level continuous        */
+  TWOFOLD_CP_JUMP = 1,  /* level and growth free after a change        */
+  TWOFOLD_CP_LEVEL = 2  /* growth fixed at 0: change in a constant rate */
+} twofold_cp_kind;
+
+/* "kink", "jump", "level"; NULL for an unknown value. */
+TWOFOLD_API const char *twofold_cp_kind_to_string(int kind);
+/* The kind named name, or TWOFOLD_EINVAL. */
+TWOFOLD_API int twofold_cp_kind_from_string(const char *name);
+
+/* Changepoint options.  Defaults are those stated above, plus: credible
+ * level 0.95, pruning threshold 1e-10, up to 20 changes reported in the
+ * count distribution, 16 grid points per knot (KINK). */
+typedef struct twofold_cp_options twofold_cp_options;
+
+/* Caller frees. */
+TWOFOLD_API int twofold_cp_options_new(twofold_cp_options **out);
+TWOFOLD_API void twofold_cp_options_free(twofold_cp_options *o);
+/* A deep copy.  Caller frees. */
+TWOFOLD_API int twofold_cp_options_copy(const twofold_cp_options *o,
+                                        twofold_cp_options **out);
+/* Message of the last failed setter ("" if none); borrowed. */
+TWOFOLD_API const char *twofold_cp_options_errmsg(
+    const twofold_cp_options *o);
+/* Setters return 0, TWOFOLD_EINVAL (NULL, unknown enum value) or
+ * TWOFOLD_ERANGE (value outside the stated range); getters of a NULL
+ * options object return the defaults' type-appropriate zero. */
+TWOFOLD_API int twofold_cp_options_set_kind(twofold_cp_options *o, int kind);
+TWOFOLD_API int twofold_cp_options_get_kind(const twofold_cp_options *o);
+/* Expected changes per year, > 0 and below 365.25 / min_segment; sets the
+ * mean segment length to 365.25 / rate days. */
+TWOFOLD_API int twofold_cp_options_set_changes_per_year(
+    twofold_cp_options *o, double rate);
+TWOFOLD_API double twofold_cp_options_get_changes_per_year(
+    const twofold_cp_options *o);
+/* The same as a per-day probability p in (0, 1/min_segment): mean segment
+ * length 1/p days (the prior probability of a change on any one day). */
+TWOFOLD_API int twofold_cp_options_set_change_prob(twofold_cp_options *o,
+                                                   double p);
+TWOFOLD_API double twofold_cp_options_get_change_prob(
+    const twofold_cp_options *o);
+/* Minimum segment length in days, >= 1. */
+TWOFOLD_API int twofold_cp_options_set_min_segment(twofold_cp_options *o,
+                                                   int days);
+TWOFOLD_API int twofold_cp_options_get_min_segment(
+    const twofold_cp_options *o);
+/* Negative-binomial shape k of segment lengths beyond the minimum, 1..50
+ * (1: geometric). */
+TWOFOLD_API int twofold_cp_options_set_length_shape(twofold_cp_options *o,
+                                                    int k);
+TWOFOLD_API int twofold_cp_options_get_length_shape(
+    const twofold_cp_options *o);
+/* Normal prior of a segment's growth rate: mean (finite) and sd > 0. */
+TWOFOLD_API int twofold_cp_options_set_rate_prior(twofold_cp_options *o,
+                                                  double mean, double sd);
+TWOFOLD_API int twofold_cp_options_get_rate_prior(
+    const twofold_cp_options *o, double *mean, double *sd);
+/* Gamma prior of the count level: shape alpha > 0, rate beta >= 0
+ * (0: beta = alpha / mean count of the series, the default). */
+TWOFOLD_API int twofold_cp_options_set_level_prior(twofold_cp_options *o,
+                                                   double alpha,
+                                                   double beta);
+TWOFOLD_API int twofold_cp_options_get_level_prior(
+    const twofold_cp_options *o, double *alpha, double *beta);
+/* Dispersion phi: 0 estimates it from the series (the default); a value
+ * >= 1 is used as given (1: plain Poisson). */
+TWOFOLD_API int twofold_cp_options_set_dispersion(twofold_cp_options *o,
+                                                  double phi);
+TWOFOLD_API double twofold_cp_options_get_dispersion(
+    const twofold_cp_options *o);
+/* Weekday effects estimated (1, the default) or none (0). */
+TWOFOLD_API int twofold_cp_options_set_weekday(twofold_cp_options *o,
+                                               int on);
+TWOFOLD_API int twofold_cp_options_get_weekday(const twofold_cp_options *o);
+/* Pruning threshold epsilon in [0, 1e-3]; 0 is the exact, unpruned
+ * recursion (cost quadratic in the length). */
+TWOFOLD_API int twofold_cp_options_set_prune(twofold_cp_options *o,
+                                             double epsilon);
+TWOFOLD_API double twofold_cp_options_get_prune(const twofold_cp_options *o);
+/* Largest number of changes in the count distribution, 0..1000. */
+TWOFOLD_API int twofold_cp_options_set_max_changes(twofold_cp_options *o,
+                                                   int m);
+TWOFOLD_API int twofold_cp_options_get_max_changes(
+    const twofold_cp_options *o);
+/* Credible level in (0, 1). */
+TWOFOLD_API int twofold_cp_options_set_level(twofold_cp_options *o,
+                                             double level);
+TWOFOLD_API double twofold_cp_options_get_level(const twofold_cp_options *o);
+/* KINK: grid points per knot, 4..200. */
+TWOFOLD_API int twofold_cp_options_set_grid(twofold_cp_options *o,
+                                            int points);
+TWOFOLD_API int twofold_cp_options_get_grid(const twofold_cp_options *o);
+
+/* A changepoint posterior for one series, reusable across runs.  Caller
+ * frees. */
+typedef struct twofold_changes twofold_changes;
+
+TWOFOLD_API int twofold_changes_new(twofold_changes **out);
+TWOFOLD_API void twofold_changes_free(twofold_changes *ch);
+
+/* Largest series accepted by twofold_changes_run (days). */
+#define TWOFOLD_CP_MAX_DAYS 100000
+
+/* Compute the posterior for y[0..n-1] (NaN = missing day; counts whole
+ * numbers >= 0), first_weekday the ISO weekday (1..7) of y[0].  o may be
+ * NULL (defaults).  Returns 0 or TWOFOLD_EINVAL, TWOFOLD_ECOUNT,
+ * TWOFOLD_ENODATA (fewer than 2 days with data), TWOFOLD_ETOOLARGE,
+ * TWOFOLD_ENOMEM; the status and a message stay in ch. */
+TWOFOLD_API int twofold_changes_run(twofold_changes *ch,
+                                    const twofold_cp_options *o,
+                                    const double *y, size_t n,
+                                    int first_weekday);
+
+/* Status of the last run and its message ("" after success); borrowed. */
+TWOFOLD_API int twofold_changes_status(const twofold_changes *ch);
+TWOFOLD_API const char *twofold_changes_errmsg(const twofold_changes *ch);
+/* Days in the last successful run (0 if none). */
+TWOFOLD_API size_t twofold_changes_length(const twofold_changes *ch);
+TWOFOLD_API int twofold_changes_kind(const twofold_changes *ch);
+/* The dispersion phi and the weekday effect (log scale, ISO weekday
+ * 1..7, 0 when off) used by the run; NaN before a successful run. */
+TWOFOLD_API double twofold_changes_dispersion(const twofold_changes *ch);
+TWOFOLD_API double twofold_changes_weekday_effect(const twofold_changes *ch,
+                                                  int weekday);
+/* Log evidence log p(y) of the model (with phi > 1 that of the tempered
+ * likelihood, which is not a probability). */
+TWOFOLD_API double twofold_changes_log_evidence(const twofold_changes *ch);
+
+/* Getters writing per-day results into caller arrays of length
+ * twofold_changes_length(); any array may be NULL.  They return 0, or
+ * TWOFOLD_EINVAL before a successful run. */
+/* p[i] = P(day i is the first day of a new growth regime | y); p[0] = 0. */
+TWOFOLD_API int twofold_changes_p_change(const twofold_changes *ch,
+                                         double *p);
+/* Posterior mean of the growth rate on each day and an equal-tailed
+ * credible interval at the options' level (normal approximation of the
+ * mixture over segments, matched to its mean and variance). */
+TWOFOLD_API int twofold_changes_growth(const twofold_changes *ch,
+                                       double *mean, double *lo, double *hi);
+/* Doubling or halving time per day from the growth mean and interval, as
+ * twofold_doubling_time() gives them (sense +1 doubling, -1 halving, 0
+ * flat; INFINITY where unbounded). */
+TWOFOLD_API int twofold_changes_doubling(const twofold_changes *ch,
+                                         double *time, double *lo,
+                                         double *hi, int *sense);
+/* Posterior of the number of changes: p[m] = P(K = m | y) for m =
+ * 0..size-1 (size <= max_changes + 1; the remainder P(K > max_changes)
+ * goes to *tail, which may be NULL). */
+TWOFOLD_API int twofold_changes_count_prob(const twofold_changes *ch,
+                                           double *p, size_t size,
+                                           double *tail);
+/* Posterior mean of the number of changes. */
+TWOFOLD_API double twofold_changes_count_mean(const twofold_changes *ch);
+
+/* The most probable segmentation (exact for JUMP and LEVEL; KINK: the
+ * most probable changes and grid levels jointly). */
+TWOFOLD_API size_t twofold_changes_map_count(const twofold_changes *ch);
+/* Its k-th change (k = 0..count-1): the day (first day of the new
+ * regime), an interval [from, to] of days around it grown towards the
+ * more probable side until the sum of p_change over it reaches the credible
+ * level (never past the midpoints to the neighbouring changes), and *prob,
+ * that sum capped at 1: the probability of a change in the interval when
+ * the interval is shorter than the minimum segment length (at most one
+ * change fits), otherwise the expected number of changes in it.  Any out
+ * pointer may be NULL.  TWOFOLD_ENOTFOUND if k is out of range. */
+TWOFOLD_API int twofold_changes_map_change(const twofold_changes *ch,
+                                           size_t k, size_t *day,
+                                           size_t *from, size_t *to,
+                                           double *prob);
+/* Its k-th segment (k = 0..count): first and last day, the posterior mean
+ * growth rate and credible interval given this segmentation (KINK: the
+ * per-day posterior at the segment's middle day), and the posterior mean
+ * count level (weekday-neutral, at the middle day).  Any out pointer may
+ * be NULL.  TWOFOLD_ENOTFOUND if k is out of range. */
+TWOFOLD_API int twofold_changes_map_segment(const twofold_changes *ch,
+                                            size_t k, size_t *start,
+                                            size_t *end, double *rate,
+                                            double *rate_lo, double *rate_hi,
+                                            double *level);
+
+/* Draw `draws` segmentations from the posterior (exact sampling from the
+ * recursions; KINK: on the level grid), seeded by seed (same seed, same
+ * draws).  change (draws x n, row-major, may be NULL) gets 1 where day i
+ * starts a new regime in draw d, else 0; rate (draws x n, may be NULL)
+ * the growth rate of day i in draw d; count (draws, may be NULL) the
+ * number of changes.  Caller-owned arrays. */
+TWOFOLD_API int twofold_changes_sample(const twofold_changes *ch,
+                                       uint64_t seed, size_t draws,
+                                       unsigned char *change, double *rate,
+                                       size_t *count);
+
+/* Building blocks, for checks and for callers combining segments: the log
+ * marginal likelihood of days start..end as one segment (JUMP, LEVEL;
+ * without the terms common to every segmentation, see libtwofold(3)), and
+ * the log prior probability of a segment of length len (first: the first
+ * segment) ending (*log_pmf) or lasting at least len days (*log_surv).
+ * TWOFOLD_EINVAL for KINK or before a run, TWOFOLD_ERANGE for days out of
+ * range. */
+TWOFOLD_API int twofold_changes_segment_logml(const twofold_changes *ch,
+                                              size_t start, size_t end,
+                                              double *logml);
+TWOFOLD_API int twofold_changes_length_prior(const twofold_changes *ch,
+                                             size_t len, int first,
+                                             double *log_pmf,
+                                             double *log_surv);
+
+/* Online filter (Fearnhead & Liu 2007) for JUMP and LEVEL segments.
+ * history[0..n_history-1] (may be NULL with n_history 0) estimates the
+ * weekday effects, the dispersion (when the options ask for it; without
+ * history phi = 1) and the level prior scale as the offline run would, and
+ * is fed to the filter; first_weekday is the ISO weekday of the first day
+ * (of the history, or of the first added day).  At most max_candidates
+ * (>= 2) candidate last changes are kept, reduced by stratified optimal
+ * resampling seeded by seed.  o may be NULL.  Caller frees. */
+typedef struct twofold_online twofold_online;
+
+TWOFOLD_API int twofold_online_new(const twofold_cp_options *o,
+                                   const double *history, size_t n_history,
+                                   int first_weekday, size_t max_candidates,
+                                   uint64_t seed, twofold_online **out);
+TWOFOLD_API void twofold_online_free(twofold_online *on);
+TWOFOLD_API const char *twofold_online_errmsg(const twofold_online *on);
+/* Add the next day's count (NaN = missing). */
+TWOFOLD_API int twofold_online_add(twofold_online *on, double y);
+/* Days added so far (history included) and candidates kept. */
+TWOFOLD_API size_t twofold_online_days(const twofold_online *on);
+TWOFOLD_API size_t twofold_online_candidates(const twofold_online *on);
+/* P(a new regime started within the last k days | data so far), k >= 1
+ * (k = 1: today is the first day of a new regime). */
+TWOFOLD_API int twofold_online_p_recent(const twofold_online *on, size_t k,
+                                        double *p);
+/* Growth rate today: posterior mean and credible interval (normal
+ * approximation of the mixture). */
+TWOFOLD_API int twofold_online_growth(const twofold_online *on, double *mean,
+                                      double *lo, double *hi);
+/* log p(y_t | y_1..t-1) of the last day added (NaN if none). */
+TWOFOLD_API double twofold_online_log_predictive(const twofold_online *on);
 
 #ifdef __cplusplus
 }
