@@ -19,6 +19,8 @@ Main functions:
     latest_growth(regions)    last-window growth per region -> DataFrame
     doubling_time(r, lo, hi)  doubling/halving time with interval
     GenerationInterval.gamma(mean, sd), reproduction_number(r, gi)
+    find_changes(counts, start)     changepoint posterior -> ChangeResult
+    OnlineChanges(...)        the online changepoint filter, day by day
 """
 
 from ._lib import TwofoldError, CODES, library_path, lib as _clib
@@ -27,12 +29,16 @@ from .series import DailySeries, read_csv, from_frame, total
 from .growth import (WindowFit, RollingFit, DoublingTime, fit_window,
                      roll_window, doubling_time, latest_growth)
 from .transmission import GenerationInterval, reproduction_number
+from .changes import (ChangeResult, Change, Segment, find_changes,
+                      OnlineChanges)
 
 __all__ = ["TwofoldError", "CODES", "library_path", "version",
            "DailySeries", "read_csv", "from_frame", "total",
            "WindowFit", "RollingFit", "DoublingTime", "fit_window",
            "roll_window", "doubling_time", "latest_growth",
-           "GenerationInterval", "reproduction_number"]
+           "GenerationInterval", "reproduction_number",
+           "ChangeResult", "Change", "Segment", "find_changes",
+           "OnlineChanges"]
 
 __version__ = "0.1.0"
 
