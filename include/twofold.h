@@ -232,6 +232,65 @@ TWOFOLD_API int twofold_set_total(const twofold_set *set, const char *region,
 /* Reading CSV                                                         */
 /* ------------------------------------------------------------------ */
 
+/*
+ * Input (see libtwofold(3) for the full list of rules):
+ *  - RFC 4180 CSV: fields separated by commas, records by LF or CRLF; a
+ *    field may be double-quoted and then hold commas, line breaks and
+ *    doubled quotes ("").  A quote inside an unquoted field, text after a
+ *    closing quote, a carriage return not before a line feed and a quoted
+ *    field still open at the end of input are TWOFOLD_EPARSE.  The first
+ *    record is the header; empty lines are skipped; the last record need
+ *    not end with a line break.  A UTF-8 byte-order mark is skipped.
+ *  - gzip input is recognised by its first two bytes (1f 8b) and may hold
+ *    several members one after the other; a truncated or corrupt stream,
+ *    or bytes after a member that are not another member, is
+ *    TWOFOLD_EGZIP.
+ *  - Long layout: one row per region and date.  The region column and the
+ *    date column (names selectable) are required; every further column is
+ *    a count column of the same name: the chosen count column (or else the
+ *    first further column) becomes series column 0, the others follow in
+ *    header order.
+ *  - Wide layout: a date column and one column per region, the header
+ *    naming the regions; each region's series has one column, named
+ *    "count".  (The count-column option is not used.)
+ *  - Auto layout: long if the region column exists, else wide if the date
+ *    column exists, else TWOFOLD_ECOLUMN.
+ *  - Dates are exactly YYYY-MM-DD and must exist (TWOFOLD_EDATE).
+ *  - Counts are non-negative whole numbers written as decimal digits only,
+ *    at most 2^53 (leading zeros allowed; no sign, spaces, decimal point
+ *    or exponent: "12.0", "1e3", " 5" are TWOFOLD_ECOUNT).  An empty field
+ *    is a missing day (NaN), as is a date the file never gives for the
+ *    region: gaps are kept, never filled.  A region's series spans its
+ *    first to last date given; in the wide layout every row gives its date
+ *    to every region, so all regions span the file's dates.
+ *  - Region order in the set: order of first appearance (wide: header
+ *    order).  Rows may come in any order.
+ *  - Region and column names are kept byte for byte (no trimming) and must
+ *    be non-empty (TWOFOLD_EPARSE) valid UTF-8 (TWOFOLD_EENCODING); a NUL
+ *    byte anywhere is TWOFOLD_EENCODING.  A column name given twice is
+ *    TWOFOLD_EDUPLICATE, as is a region and date given twice.
+ *  - A record whose field count differs from the header's is
+ *    TWOFOLD_EFIELDS; no header is TWOFOLD_EEMPTY (line 1), a header with
+ *    no data rows is TWOFOLD_EEMPTY (the header's line).
+ *  - Limits (TWOFOLD_ETOOLARGE): a record longer than
+ *    TWOFOLD_READ_RECORD_MAX bytes; more than TWOFOLD_READ_FIELDS_MAX
+ *    fields in a record; the days spanned by all regions together above
+ *    TWOFOLD_READ_SPAN_BASE + TWOFOLD_READ_SPAN_PER_ENTRY x (region-day
+ *    entries read), which keeps memory proportional to the input while
+ *    any single region of up to 2^21 days (over 5700 years) is accepted.
+ *  - Errors: err->line is the physical line (1-based) where the offending
+ *    record starts, err->column the field number (0 where not
+ *    applicable: absent columns, gzip and I/O errors, size limits of a
+ *    whole record); err->text reads "FILE:LINE:COLUMN: " followed by what
+ *    is wrong, the column name and the offending value, double-quoted
+ *    (escaped and cut to about 90 bytes).  A duplicate names the earlier
+ *    line too.  The first problem in the file is reported.
+ */
+#define TWOFOLD_READ_RECORD_MAX (64u * 1024u * 1024u) /* bytes */
+#define TWOFOLD_READ_FIELDS_MAX 1048576u
+#define TWOFOLD_READ_SPAN_BASE 2097152u /* days */
+#define TWOFOLD_READ_SPAN_PER_ENTRY 8u
+
 /* Layout of a CSV file. */
 typedef enum twofold_layout {
   TWOFOLD_LAYOUT_AUTO = 0, /* long if the region column is present      */
@@ -246,33 +305,39 @@ TWOFOLD_API int twofold_layout_from_string(const char *name);
 
 typedef struct twofold_read_options twofold_read_options;
 
+/* Defaults: layout AUTO, region column "region", date column "date", no
+ * chosen count column.  Caller frees. */
 TWOFOLD_API int twofold_read_options_new(twofold_read_options **out);
 TWOFOLD_API void twofold_read_options_free(twofold_read_options *o);
+/* TWOFOLD_EINVAL for a value not in twofold_layout. */
 TWOFOLD_API int twofold_read_options_set_layout(twofold_read_options *o,
                                                 int layout);
-/* Column names (copied).  Defaults: "region" and "date". */
+/* Column names (copied; NULL or "" is TWOFOLD_EINVAL).  Defaults:
+ * "region" and "date". */
 TWOFOLD_API int twofold_read_options_set_region_column(
     twofold_read_options *o, const char *name);
 TWOFOLD_API int twofold_read_options_set_date_column(twofold_read_options *o,
                                                      const char *name);
 /* Long layout: the primary count column (default NULL: the first column
- * that is neither the region nor the date column).  Every other column
- * becomes a further series column of the same name. */
+ * that is neither the region nor the date column; NULL restores it).
+ * Every other column becomes a further series column of the same name.
+ * A name not in the header is TWOFOLD_ECOLUMN when reading. */
 TWOFOLD_API int twofold_read_options_set_count_column(
     twofold_read_options *o, const char *name);
 
 /* Read a CSV file, plain or gzip-compressed (detected by its magic bytes).
  * opts may be NULL (defaults), err may be NULL.  On success *out is a new
- * set the caller frees; on failure *out is NULL and err says where. */
+ * set the caller frees and err->code is 0; on failure *out is NULL and
+ * err says where.  A file that cannot be opened or read is TWOFOLD_EIO. */
 TWOFOLD_API int twofold_read_file(const char *path,
                                   const twofold_read_options *opts,
                                   twofold_set **out, twofold_error *err);
-/* The same from an open file descriptor (not closed); name labels errors
- * (e.g. "<stdin>"). */
+/* The same from an open file descriptor, read to its end (not closed);
+ * name labels errors (NULL: "<stdin>" for fd 0, else "<fd>"). */
 TWOFOLD_API int twofold_read_fd(int fd, const char *name,
                                 const twofold_read_options *opts,
                                 twofold_set **out, twofold_error *err);
-/* The same from memory. */
+/* The same from memory (data is not modified; name NULL: "<memory>"). */
 TWOFOLD_API int twofold_read_memory(const void *data, size_t size,
                                     const char *name,
                                     const twofold_read_options *opts,
