@@ -538,6 +538,176 @@ static SEXP tfr_reproduction(SEXP r, SEXP lo, SEXP hi, SEXP mean, SEXP sd,
   return out;
 }
 
+/* ---- changepoints ---------------------------------------------------- */
+
+static void fin_cpopts(SEXP p) {
+  twofold_cp_options_free((twofold_cp_options *)R_ExternalPtrAddr(p));
+  R_ClearExternalPtr(p);
+}
+static void fin_changes(SEXP p) {
+  twofold_changes_free((twofold_changes *)R_ExternalPtrAddr(p));
+  R_ClearExternalPtr(p);
+}
+
+static SEXP real_vec(R_xlen_t n) { return Rf_allocVector(REALSXP, n); }
+
+/* Options from the R list opts (NULL entries: library defaults); on a
+ * failing setter *status < 0 and the options' message explains it. */
+static int cp_options(SEXP opts, twofold_cp_options *o) {
+  SEXP v;
+  int st = 0;
+  if (!Rf_isNull(v = list_get(opts, "kind"))) {
+    int k = twofold_cp_kind_from_string(opt_string(v));
+    st = k < 0 ? k : twofold_cp_options_set_kind(o, k);
+    if (st < 0)
+      return st;
+  }
+#define TF_CP_REAL(name)                                                     \
+  if (!Rf_isNull(v = list_get(opts, #name)) &&                               \
+      (st = twofold_cp_options_set_##name(o, Rf_asReal(v))) < 0)             \
+    return st;
+#define TF_CP_INT(name)                                                      \
+  if (!Rf_isNull(v = list_get(opts, #name)) &&                               \
+      (st = twofold_cp_options_set_##name(o, Rf_asInteger(v))) < 0)          \
+    return st;
+  TF_CP_REAL(changes_per_year)
+  TF_CP_REAL(change_prob)
+  TF_CP_INT(min_segment)
+  TF_CP_INT(length_shape)
+  TF_CP_REAL(dispersion)
+  TF_CP_INT(weekday)
+  TF_CP_REAL(prune)
+  TF_CP_INT(max_changes)
+  TF_CP_REAL(level)
+  TF_CP_INT(grid)
+#undef TF_CP_REAL
+#undef TF_CP_INT
+  if (!Rf_isNull(v = list_get(opts, "rate_prior"))) {
+    if (TYPEOF(v) != REALSXP || XLENGTH(v) != 2)
+      return TWOFOLD_EINVAL;
+    if ((st = twofold_cp_options_set_rate_prior(o, REAL(v)[0], REAL(v)[1])) < 0)
+      return st;
+  }
+  if (!Rf_isNull(v = list_get(opts, "level_prior"))) {
+    if (TYPEOF(v) != REALSXP || XLENGTH(v) != 2)
+      return TWOFOLD_EINVAL;
+    if ((st = twofold_cp_options_set_level_prior(o, REAL(v)[0], REAL(v)[1])) <
+        0)
+      return st;
+  }
+  return 0;
+}
+
+static SEXP tfr_changes(SEXP y, SEXP first_weekday, SEXP opts) {
+  if (TYPEOF(y) != REALSXP)
+    return status_list(TWOFOLD_EINVAL, "counts must be numeric", 0, 0);
+  SEXP hopts = PROTECT(holder(fin_cpopts));
+  SEXP hch = PROTECT(holder(fin_changes));
+  twofold_cp_options *o = NULL;
+  int st = twofold_cp_options_new(&o);
+  if (st < 0) {
+    UNPROTECT(2);
+    return status_code(st);
+  }
+  R_SetExternalPtrAddr(hopts, o);
+  st = cp_options(opts, o);
+  if (st < 0) {
+    SEXP e = status_list(st, twofold_cp_options_errmsg(o), 0, 0);
+    UNPROTECT(2);
+    return e;
+  }
+  twofold_changes *ch = NULL;
+  st = twofold_changes_new(&ch);
+  if (st < 0) {
+    UNPROTECT(2);
+    return status_code(st);
+  }
+  R_SetExternalPtrAddr(hch, ch);
+  R_xlen_t n = XLENGTH(y);
+  st = twofold_changes_run(ch, o, REAL(y), (size_t)n,
+                           Rf_asInteger(first_weekday));
+  if (st < 0) {
+    SEXP e = status_list(st, twofold_changes_errmsg(ch), 0, 0);
+    UNPROTECT(2);
+    return e;
+  }
+  const char *names[] = {"kind", "p_change", "rate", "lo", "hi",
+                         "doubling_time", "doubling_lo", "doubling_hi",
+                         "sense", "count_prob", "count_tail", "count_mean",
+                         "dispersion", "weekday_effects", "log_evidence",
+                         "change_day", "change_from", "change_to",
+                         "change_prob", "seg_start", "seg_end", "seg_rate",
+                         "seg_lo", "seg_hi", "seg_level", ""};
+  SEXP out = PROTECT(Rf_mkNamed(VECSXP, names));
+  const char *kind = twofold_cp_kind_to_string(twofold_changes_kind(ch));
+  SET_VECTOR_ELT(out, 0, Rf_mkString(kind ? kind : ""));
+  for (int i = 1; i <= 7; i++)
+    SET_VECTOR_ELT(out, i, real_vec(n));
+  SET_VECTOR_ELT(out, 8, Rf_allocVector(INTSXP, n));
+  st = twofold_changes_p_change(ch, REAL(VECTOR_ELT(out, 1)));
+  if (st == 0)
+    st = twofold_changes_growth(ch, REAL(VECTOR_ELT(out, 2)),
+                                REAL(VECTOR_ELT(out, 3)),
+                                REAL(VECTOR_ELT(out, 4)));
+  if (st == 0)
+    st = twofold_changes_doubling(ch, REAL(VECTOR_ELT(out, 5)),
+                                  REAL(VECTOR_ELT(out, 6)),
+                                  REAL(VECTOR_ELT(out, 7)),
+                                  INTEGER(VECTOR_ELT(out, 8)));
+  size_t size = (size_t)twofold_cp_options_get_max_changes(o) + 1;
+  SET_VECTOR_ELT(out, 9, real_vec((R_xlen_t)size));
+  double tail = 0;
+  if (st == 0)
+    st = twofold_changes_count_prob(ch, REAL(VECTOR_ELT(out, 9)), size, &tail);
+  if (st < 0) {
+    SEXP e = status_list(st, twofold_changes_errmsg(ch), 0, 0);
+    UNPROTECT(3);
+    return e;
+  }
+  SET_VECTOR_ELT(out, 10, Rf_ScalarReal(tail));
+  SET_VECTOR_ELT(out, 11, Rf_ScalarReal(twofold_changes_count_mean(ch)));
+  SET_VECTOR_ELT(out, 12, Rf_ScalarReal(twofold_changes_dispersion(ch)));
+  SEXP wd = real_vec(7);
+  SET_VECTOR_ELT(out, 13, wd);
+  for (int d = 1; d <= 7; d++)
+    REAL(wd)[d - 1] = twofold_changes_weekday_effect(ch, d);
+  SET_VECTOR_ELT(out, 14, Rf_ScalarReal(twofold_changes_log_evidence(ch)));
+  size_t k = twofold_changes_map_count(ch);
+  for (int i = 15; i <= 18; i++)
+    SET_VECTOR_ELT(out, i, real_vec((R_xlen_t)k));
+  for (int i = 19; i <= 24; i++)
+    SET_VECTOR_ELT(out, i, real_vec((R_xlen_t)k + 1));
+  for (size_t j = 0; j < k && st == 0; j++) {
+    size_t day = 0, from = 0, to = 0;
+    double prob = NAN;
+    st = twofold_changes_map_change(ch, j, &day, &from, &to, &prob);
+    REAL(VECTOR_ELT(out, 15))[j] = (double)day;
+    REAL(VECTOR_ELT(out, 16))[j] = (double)from;
+    REAL(VECTOR_ELT(out, 17))[j] = (double)to;
+    REAL(VECTOR_ELT(out, 18))[j] = prob;
+  }
+  for (size_t j = 0; j <= k && st == 0; j++) {
+    size_t s0 = 0, s1 = 0;
+    double r = NAN, rl = NAN, rh = NAN, lev = NAN;
+    st = twofold_changes_map_segment(ch, j, &s0, &s1, &r, &rl, &rh, &lev);
+    REAL(VECTOR_ELT(out, 19))[j] = (double)s0;
+    REAL(VECTOR_ELT(out, 20))[j] = (double)s1;
+    REAL(VECTOR_ELT(out, 21))[j] = r;
+    REAL(VECTOR_ELT(out, 22))[j] = rl;
+    REAL(VECTOR_ELT(out, 23))[j] = rh;
+    REAL(VECTOR_ELT(out, 24))[j] = lev;
+  }
+  if (st < 0) {
+    SEXP e = status_list(st, twofold_changes_errmsg(ch), 0, 0);
+    UNPROTECT(3);
+    return e;
+  }
+  release(hch, fin_changes);
+  release(hopts, fin_cpopts);
+  UNPROTECT(3);
+  return out;
+}
+
 /* ---- registration ---------------------------------------------------- */
 
 static const R_CallMethodDef call_methods[] = {
@@ -549,6 +719,7 @@ static const R_CallMethodDef call_methods[] = {
     {"tfr_roll", (DL_FUNC)&tfr_roll, 6},
     {"tfr_doubling", (DL_FUNC)&tfr_doubling, 3},
     {"tfr_reproduction", (DL_FUNC)&tfr_reproduction, 6},
+    {"tfr_changes", (DL_FUNC)&tfr_changes, 3},
     {NULL, NULL, 0}};
 
 void R_init_twofold(DllInfo *dll);

@@ -66,3 +66,20 @@ stopifnot(nrow(r) == 40, inherits(r$date, "Date"),
 w <- fit_growth(y[27:40], start = as.Date("2025-01-06") + 26, model = "poisson")
 stopifnot(isTRUE(all.equal(w$rate, r$rate[40], tolerance = 1e-12)))
 cat("io checks passed\n")
+
+## changepoints: an invented series with one change on day 61 (2025-03-07)
+set.seed(5)
+day <- 0:119
+y <- rpois(120, 50 * exp(ifelse(day < 60, 0.03 * day, 1.8 - 0.04 * (day - 60))))
+cp <- find_changes(y, start = as.Date("2025-01-06"), kind = "jump")
+stopifnot(cp$kind == "jump", nrow(cp$days) == 120,
+          inherits(cp$days$date, "Date"), cp$days$p_change[1] == 0,
+          nrow(cp$changes) == 1,
+          abs(as.numeric(cp$changes$date - as.Date("2025-03-07"))) <= 3,
+          cp$changes$from <= cp$changes$date, cp$changes$date <= cp$changes$to,
+          nrow(cp$segments) == 2,
+          abs(sum(cp$count$prob) + cp$count_tail - 1) < 1e-9)
+e <- tryCatch(find_changes(y, start = "2025-01-06", min_segment = 0),
+              error = function(e) e)
+stopifnot(inherits(e, "twofold_error"), e$name == "TWOFOLD_ERANGE")
+cat("changepoint checks passed\n")
