@@ -232,6 +232,65 @@ TWOFOLD_API int twofold_set_total(const twofold_set *set, const char *region,
 /* Reading CSV                                                         */
 /* ------------------------------------------------------------------ */
 
+/*
+ * Input (see libtwofold(3) for the full list of rules):
+ *  - RFC 4180 CSV: fields separated by commas, records by LF or CRLF; a
+ *    field may be double-quoted and then hold commas, line breaks and
+ *    doubled quotes ("").  A quote inside an unquoted field, text after a
+ *    closing quote, a carriage return not before a line feed and a quoted
+ *    field still open at the end of input are TWOFOLD_EPARSE.  The first
+ *    record is the header; empty lines are skipped; the last record need
+ *    not end with a line break.  A UTF-8 byte-order mark is skipped.
+ *  - gzip input is recognised by its first two bytes (1f 8b) and may hold
+ *    several members one after the other; a truncated or corrupt stream,
+ *    or bytes after a member that are not another member, is
+ *    TWOFOLD_EGZIP.
+ *  - Long layout: one row per region and date.  The region column and the
+ *    date column (names selectable) are required; every further column is
+ *    a count column of the same name: the chosen count column (or else the
+ *    first further column) becomes series column 0, the others follow in
+ *    header order.
+ *  - Wide layout: a date column and one column per region, the header
+ *    naming the regions; each region's series has one column, named
+ *    "count".  (The count-column option is not used.)
+ *  - Auto layout: long if the region column exists, else wide if the date
+ *    column exists, else TWOFOLD_ECOLUMN.
+ *  - Dates are exactly YYYY-MM-DD and must exist (TWOFOLD_EDATE).
+ *  - Counts are non-negative whole numbers written as decimal digits only,
+ *    at most 2^53 (leading zeros allowed; no sign, spaces, decimal point
+ *    or exponent: "12.0", "1e3", " 5" are TWOFOLD_ECOUNT).  An empty field
+ *    is a missing day (NaN), as is a date the file never gives for the
+ *    region: gaps are kept, never filled.  A region's series spans its
+ *    first to last date given; in the wide layout every row gives its date
+ *    to every region, so all regions span the file's dates.
+ *  - Region order in the set: order of first appearance (wide: header
+ *    order).  Rows may come in any order.
+ *  - Region and column names are kept byte for byte (no trimming) and must
+ *    be non-empty (TWOFOLD_EPARSE) valid UTF-8 (TWOFOLD_EENCODING); a NUL
+ *    byte anywhere is TWOFOLD_EENCODING.  A column name given twice is
+ *    TWOFOLD_EDUPLICATE, as is a region and date given twice.
+ *  - A record whose field count differs from the header's is
+ *    TWOFOLD_EFIELDS; no header is TWOFOLD_EEMPTY (line 1), a header with
+ *    no data rows is TWOFOLD_EEMPTY (the header's line).
+ *  - Limits (TWOFOLD_ETOOLARGE): a record longer than
+ *    TWOFOLD_READ_RECORD_MAX bytes; more than TWOFOLD_READ_FIELDS_MAX
+ *    fields in a record; the days spanned by all regions together above
+ *    TWOFOLD_READ_SPAN_BASE + TWOFOLD_READ_SPAN_PER_ENTRY x (region-day
+ *    entries read), which keeps memory proportional to the input while
+ *    any single region of up to 2^21 days (over 5700 years) is accepted.
+ *  - Errors: err->line is the physical line (1-based) where the offending
+ *    record starts, err->column the field number (0 where not
+ *    applicable: absent columns, gzip and I/O errors, size limits of a
+ *    whole record); err->text reads "FILE:LINE:COLUMN: " followed by what
+ *    is wrong, the column name and the offending value, double-quoted
+ *    (escaped and cut to about 90 bytes).  A duplicate names the earlier
+ *    line too.  The first problem in the file is reported.
+ */
+#define TWOFOLD_READ_RECORD_MAX (64u * 1024u * 1024u) /* bytes */
+#define TWOFOLD_READ_FIELDS_MAX 1048576u
+#define TWOFOLD_READ_SPAN_BASE 2097152u /* days */
+#define TWOFOLD_READ_SPAN_PER_ENTRY 8u
+
 /* Layout of a CSV file. */
 typedef enum twofold_layout {
   TWOFOLD_LAYOUT_AUTO = 0, /* long if the region column is present      */
@@ -246,33 +305,39 @@ TWOFOLD_API int twofold_layout_from_string(const char *name);
 
 typedef struct twofold_read_options twofold_read_options;
 
+/* Defaults: layout AUTO, region column "region", date column "date", no
+ * chosen count column.  Caller frees. */
 TWOFOLD_API int twofold_read_options_new(twofold_read_options **out);
 TWOFOLD_API void twofold_read_options_free(twofold_read_options *o);
+/* TWOFOLD_EINVAL for a value not in twofold_layout. */
 TWOFOLD_API int twofold_read_options_set_layout(twofold_read_options *o,
                                                 int layout);
-/* Column names (copied).  Defaults: "region" and "date". */
+/* Column names (copied; NULL or "" is TWOFOLD_EINVAL).  Defaults:
+ * "region" and "date". */
 TWOFOLD_API int twofold_read_options_set_region_column(
     twofold_read_options *o, const char *name);
 TWOFOLD_API int twofold_read_options_set_date_column(twofold_read_options *o,
                                                      const char *name);
 /* Long layout: the primary count column (default NULL: the first column
- * that is neither the region nor the date column).  Every other column
- * becomes a further series column of the same name. */
+ * that is neither the region nor the date column; NULL restores it).
+ * Every other column becomes a further series column of the same name.
+ * A name not in the header is TWOFOLD_ECOLUMN when reading. */
 TWOFOLD_API int twofold_read_options_set_count_column(
     twofold_read_options *o, const char *name);
 
 /* Read a CSV file, plain or gzip-compressed (detected by its magic bytes).
  * opts may be NULL (defaults), err may be NULL.  On success *out is a new
- * set the caller frees; on failure *out is NULL and err says where. */
+ * set the caller frees and err->code is 0; on failure *out is NULL and
+ * err says where.  A file that cannot be opened or read is TWOFOLD_EIO. */
 TWOFOLD_API int twofold_read_file(const char *path,
                                   const twofold_read_options *opts,
                                   twofold_set **out, twofold_error *err);
-/* The same from an open file descriptor (not closed); name labels errors
- * (e.g. "<stdin>"). */
+/* The same from an open file descriptor, read to its end (not closed);
+ * name labels errors (NULL: "<stdin>" for fd 0, else "<fd>"). */
 TWOFOLD_API int twofold_read_fd(int fd, const char *name,
                                 const twofold_read_options *opts,
                                 twofold_set **out, twofold_error *err);
-/* The same from memory. */
+/* The same from memory (data is not modified; name NULL: "<memory>"). */
 TWOFOLD_API int twofold_read_memory(const void *data, size_t size,
                                     const char *name,
                                     const twofold_read_options *opts,
@@ -461,11 +526,15 @@ TWOFOLD_API int twofold_gi_new_discrete(const double *p, size_t n,
 TWOFOLD_API void twofold_gi_free(twofold_gi *gi);
 TWOFOLD_API double twofold_gi_mean(const twofold_gi *gi);
 TWOFOLD_API double twofold_gi_sd(const twofold_gi *gi);
-/* R for growth rate r.  TWOFOLD_ERANGE where M(-r) does not exist (gamma:
- * r <= -rate). */
+/* R for growth rate r (finite, per day).  TWOFOLD_ERANGE where M(-r) does
+ * not exist (gamma: r <= -rate, rate = mean/sd^2) or R overflows a double;
+ * *R is NaN after any failure. */
 TWOFOLD_API int twofold_gi_reproduction(const twofold_gi *gi, double r,
                                         double *R);
-/* R and its interval from r and r's interval (R is increasing in r). */
+/* R and its interval from r and r's interval (R is increasing in r).
+ * Needs r_lo <= r <= r_hi, all finite (else TWOFOLD_EINVAL); TWOFOLD_ERANGE
+ * if R does not exist at any of the three.  All out pointers are
+ * required; they are NaN after any failure. */
 TWOFOLD_API int twofold_gi_reproduction_interval(const twofold_gi *gi,
                                                  double r, double r_lo,
                                                  double r_hi, double *R,
@@ -475,7 +544,283 @@ TWOFOLD_API int twofold_gi_reproduction_interval(const twofold_gi *gi,
 /* ------------------------------------------------------------------ */
 /* Changepoints in the growth rate                                     */
 /* ------------------------------------------------------------------ */
-/* (declared by the changepoint module; see below) */
+/*
+ * Model (libtwofold(3), "Changepoints"): on day t of one series
+ *     log mu_t = eta_t + delta_weekday(t),   y_t ~ Poisson(mu_t) tempered by
+ * a dispersion phi >= 1 (each day's log-likelihood divided by phi), with
+ * eta_t piecewise linear between changepoints.  The weekday effects delta
+ * (sum to zero) and phi are estimated once per series (a Poisson fit with a
+ * log-linear trend in 14-day blocks plus weekday effects; phi is a robust,
+ * winsorized Pearson X^2/df, floored at 1) and held fixed in the
+ * recursions.  Segment kinds:
+ *   KINK  the growth rate changes, the log-level is continuous (the
+ *         default: a change in transmission);
+ *   JUMP  level and growth rate both free after a change (a change in
+ *         reporting or case definition);
+ *   LEVEL growth fixed at zero: the classical change in a constant rate.
+ * Priors: the growth rate b of a segment ~ Normal(mean, sd) (default 0,
+ * 0.1/day); the count level lambda (weekday-neutral mean count at the
+ * segment's middle day; KINK: exp of the log-level at the series start)
+ * ~ Gamma(alpha, rate beta), default alpha = 1 and beta = alpha / (the
+ * series' mean count), so the prior scales with the series.  Segment
+ * lengths: at least min_segment days (default 7), then negative binomial
+ * with shape k (default 2; k = 1 with min_segment 1 is the geometric prior,
+ * i.e. independent changes), mean 365.25 / changes_per_year days (default
+ * 4 changes per year); the first segment uses the stationary length law,
+ * so the prior probability of a change is the same on every day.
+ * Inference: JUMP and LEVEL by the exact recursions of Fearnhead (2006,
+ * Statistics and Computing 16:203-213) on segment marginal likelihoods
+ * (LEVEL: exact conjugate; JUMP: exact in the level, Laplace in the growth
+ * rate), with Fearnhead's pruning; KINK by the same forward/backward
+ * recursions on a grid of log-levels at each changepoint (exact tempered
+ * Poisson likelihood between grid knots, trapezoid quadrature over the
+ * knots).  Online: the particle filter of Fearnhead & Liu (2007, JRSS B
+ * 69:589-605) with stratified optimal resampling.
+ *
+ * Day convention: a change "on day i" (0-based index in the series) means
+ * day i is the first day of the new growth regime (so day 0 never carries
+ * a change).
+ */
+
+/* Segment kinds. */
+typedef enum twofold_cp_kind {
+  TWOFOLD_CP_KINK = 0,  /* growth changes, log-level continuous        */
+  TWOFOLD_CP_JUMP = 1,  /* level and growth free after a change        */
+  TWOFOLD_CP_LEVEL = 2  /* growth fixed at 0: change in a constant rate */
+} twofold_cp_kind;
+
+/* "kink", "jump", "level"; NULL for an unknown value. */
+TWOFOLD_API const char *twofold_cp_kind_to_string(int kind);
+/* The kind named name, or TWOFOLD_EINVAL. */
+TWOFOLD_API int twofold_cp_kind_from_string(const char *name);
+
+/* Changepoint options.  Defaults are those stated above, plus: credible
+ * level 0.95, pruning threshold 1e-10, up to 20 changes reported in the
+ * count distribution, 16 grid points per knot (KINK). */
+typedef struct twofold_cp_options twofold_cp_options;
+
+/* Caller frees. */
+TWOFOLD_API int twofold_cp_options_new(twofold_cp_options **out);
+TWOFOLD_API void twofold_cp_options_free(twofold_cp_options *o);
+/* A deep copy.  Caller frees. */
+TWOFOLD_API int twofold_cp_options_copy(const twofold_cp_options *o,
+                                        twofold_cp_options **out);
+/* Message of the last failed setter ("" if none); borrowed. */
+TWOFOLD_API const char *twofold_cp_options_errmsg(
+    const twofold_cp_options *o);
+/* Setters return 0, TWOFOLD_EINVAL (NULL, unknown enum value) or
+ * TWOFOLD_ERANGE (value outside the stated range); getters of a NULL
+ * options object return the defaults' type-appropriate zero. */
+TWOFOLD_API int twofold_cp_options_set_kind(twofold_cp_options *o, int kind);
+TWOFOLD_API int twofold_cp_options_get_kind(const twofold_cp_options *o);
+/* Expected changes per year, > 0 and below 365.25 / min_segment; sets the
+ * mean segment length to 365.25 / rate days. */
+TWOFOLD_API int twofold_cp_options_set_changes_per_year(
+    twofold_cp_options *o, double rate);
+TWOFOLD_API double twofold_cp_options_get_changes_per_year(
+    const twofold_cp_options *o);
+/* The same as a per-day probability p in (0, 1/min_segment): mean segment
+ * length 1/p days (the prior probability of a change on any one day). */
+TWOFOLD_API int twofold_cp_options_set_change_prob(twofold_cp_options *o,
+                                                   double p);
+TWOFOLD_API double twofold_cp_options_get_change_prob(
+    const twofold_cp_options *o);
+/* Minimum segment length in days, >= 1. */
+TWOFOLD_API int twofold_cp_options_set_min_segment(twofold_cp_options *o,
+                                                   int days);
+TWOFOLD_API int twofold_cp_options_get_min_segment(
+    const twofold_cp_options *o);
+/* Negative-binomial shape k of segment lengths beyond the minimum, 1..50
+ * (1: geometric). */
+TWOFOLD_API int twofold_cp_options_set_length_shape(twofold_cp_options *o,
+                                                    int k);
+TWOFOLD_API int twofold_cp_options_get_length_shape(
+    const twofold_cp_options *o);
+/* Normal prior of a segment's growth rate: mean (finite) and sd > 0. */
+TWOFOLD_API int twofold_cp_options_set_rate_prior(twofold_cp_options *o,
+                                                  double mean, double sd);
+TWOFOLD_API int twofold_cp_options_get_rate_prior(
+    const twofold_cp_options *o, double *mean, double *sd);
+/* Gamma prior of the count level: shape alpha > 0, rate beta >= 0
+ * (0: beta = alpha / mean count of the series, the default). */
+TWOFOLD_API int twofold_cp_options_set_level_prior(twofold_cp_options *o,
+                                                   double alpha,
+                                                   double beta);
+TWOFOLD_API int twofold_cp_options_get_level_prior(
+    const twofold_cp_options *o, double *alpha, double *beta);
+/* Dispersion phi: 0 estimates it from the series (the default); a value
+ * >= 1 is used as given (1: plain Poisson). */
+TWOFOLD_API int twofold_cp_options_set_dispersion(twofold_cp_options *o,
+                                                  double phi);
+TWOFOLD_API double twofold_cp_options_get_dispersion(
+    const twofold_cp_options *o);
+/* Weekday effects estimated (1, the default) or none (0). */
+TWOFOLD_API int twofold_cp_options_set_weekday(twofold_cp_options *o,
+                                               int on);
+TWOFOLD_API int twofold_cp_options_get_weekday(const twofold_cp_options *o);
+/* Pruning threshold epsilon in [0, 1e-3]; 0 is the exact, unpruned
+ * recursion (cost quadratic in the length). */
+TWOFOLD_API int twofold_cp_options_set_prune(twofold_cp_options *o,
+                                             double epsilon);
+TWOFOLD_API double twofold_cp_options_get_prune(const twofold_cp_options *o);
+/* Largest number of changes in the count distribution, 0..1000. */
+TWOFOLD_API int twofold_cp_options_set_max_changes(twofold_cp_options *o,
+                                                   int m);
+TWOFOLD_API int twofold_cp_options_get_max_changes(
+    const twofold_cp_options *o);
+/* Credible level in (0, 1). */
+TWOFOLD_API int twofold_cp_options_set_level(twofold_cp_options *o,
+                                             double level);
+TWOFOLD_API double twofold_cp_options_get_level(const twofold_cp_options *o);
+/* KINK: grid points per knot, 4..200. */
+TWOFOLD_API int twofold_cp_options_set_grid(twofold_cp_options *o,
+                                            int points);
+TWOFOLD_API int twofold_cp_options_get_grid(const twofold_cp_options *o);
+
+/* A changepoint posterior for one series, reusable across runs.  Caller
+ * frees. */
+typedef struct twofold_changes twofold_changes;
+
+TWOFOLD_API int twofold_changes_new(twofold_changes **out);
+TWOFOLD_API void twofold_changes_free(twofold_changes *ch);
+
+/* Largest series accepted by twofold_changes_run (days). */
+#define TWOFOLD_CP_MAX_DAYS 100000
+
+/* Compute the posterior for y[0..n-1] (NaN = missing day; counts whole
+ * numbers >= 0), first_weekday the ISO weekday (1..7) of y[0].  o may be
+ * NULL (defaults).  Returns 0 or TWOFOLD_EINVAL, TWOFOLD_ECOUNT,
+ * TWOFOLD_ENODATA (fewer than 2 days with data), TWOFOLD_ETOOLARGE,
+ * TWOFOLD_ENOMEM; the status and a message stay in ch. */
+TWOFOLD_API int twofold_changes_run(twofold_changes *ch,
+                                    const twofold_cp_options *o,
+                                    const double *y, size_t n,
+                                    int first_weekday);
+
+/* Status of the last run and its message ("" after success); borrowed. */
+TWOFOLD_API int twofold_changes_status(const twofold_changes *ch);
+TWOFOLD_API const char *twofold_changes_errmsg(const twofold_changes *ch);
+/* Days in the last successful run (0 if none). */
+TWOFOLD_API size_t twofold_changes_length(const twofold_changes *ch);
+TWOFOLD_API int twofold_changes_kind(const twofold_changes *ch);
+/* The dispersion phi and the weekday effect (log scale, ISO weekday
+ * 1..7, 0 when off) used by the run; NaN before a successful run. */
+TWOFOLD_API double twofold_changes_dispersion(const twofold_changes *ch);
+TWOFOLD_API double twofold_changes_weekday_effect(const twofold_changes *ch,
+                                                  int weekday);
+/* Log evidence log p(y) of the model (with phi > 1 that of the tempered
+ * likelihood, which is not a probability). */
+TWOFOLD_API double twofold_changes_log_evidence(const twofold_changes *ch);
+
+/* Getters writing per-day results into caller arrays of length
+ * twofold_changes_length(); any array may be NULL.  They return 0, or
+ * TWOFOLD_EINVAL before a successful run. */
+/* p[i] = P(day i is the first day of a new growth regime | y); p[0] = 0. */
+TWOFOLD_API int twofold_changes_p_change(const twofold_changes *ch,
+                                         double *p);
+/* Posterior mean of the growth rate on each day and an equal-tailed
+ * credible interval at the options' level (normal approximation of the
+ * mixture over segments, matched to its mean and variance). */
+TWOFOLD_API int twofold_changes_growth(const twofold_changes *ch,
+                                       double *mean, double *lo, double *hi);
+/* Doubling or halving time per day from the growth mean and interval, as
+ * twofold_doubling_time() gives them (sense +1 doubling, -1 halving, 0
+ * flat; INFINITY where unbounded). */
+TWOFOLD_API int twofold_changes_doubling(const twofold_changes *ch,
+                                         double *time, double *lo,
+                                         double *hi, int *sense);
+/* Posterior of the number of changes: p[m] = P(K = m | y) for m =
+ * 0..size-1 (size <= max_changes + 1; the remainder P(K > max_changes)
+ * goes to *tail, which may be NULL). */
+TWOFOLD_API int twofold_changes_count_prob(const twofold_changes *ch,
+                                           double *p, size_t size,
+                                           double *tail);
+/* Posterior mean of the number of changes. */
+TWOFOLD_API double twofold_changes_count_mean(const twofold_changes *ch);
+
+/* The most probable segmentation (exact for JUMP and LEVEL; KINK: the
+ * most probable changes and grid levels jointly). */
+TWOFOLD_API size_t twofold_changes_map_count(const twofold_changes *ch);
+/* Its k-th change (k = 0..count-1): the day (first day of the new
+ * regime), an interval [from, to] of days around it grown towards the
+ * more probable side until the sum of p_change over it reaches the credible
+ * level (never past the midpoints to the neighbouring changes), and *prob,
+ * that sum capped at 1: the probability of a change in the interval when
+ * the interval is shorter than the minimum segment length (at most one
+ * change fits), otherwise the expected number of changes in it.  Any out
+ * pointer may be NULL.  TWOFOLD_ENOTFOUND if k is out of range. */
+TWOFOLD_API int twofold_changes_map_change(const twofold_changes *ch,
+                                           size_t k, size_t *day,
+                                           size_t *from, size_t *to,
+                                           double *prob);
+/* Its k-th segment (k = 0..count): first and last day, the posterior mean
+ * growth rate and credible interval given this segmentation (KINK: the
+ * per-day posterior at the segment's middle day), and the posterior mean
+ * count level (weekday-neutral, at the middle day).  Any out pointer may
+ * be NULL.  TWOFOLD_ENOTFOUND if k is out of range. */
+TWOFOLD_API int twofold_changes_map_segment(const twofold_changes *ch,
+                                            size_t k, size_t *start,
+                                            size_t *end, double *rate,
+                                            double *rate_lo, double *rate_hi,
+                                            double *level);
+
+/* Draw `draws` segmentations from the posterior (exact sampling from the
+ * recursions; KINK: on the level grid), seeded by seed (same seed, same
+ * draws).  change (draws x n, row-major, may be NULL) gets 1 where day i
+ * starts a new regime in draw d, else 0; rate (draws x n, may be NULL)
+ * the growth rate of day i in draw d; count (draws, may be NULL) the
+ * number of changes.  Caller-owned arrays. */
+TWOFOLD_API int twofold_changes_sample(const twofold_changes *ch,
+                                       uint64_t seed, size_t draws,
+                                       unsigned char *change, double *rate,
+                                       size_t *count);
+
+/* Building blocks, for checks and for callers combining segments: the log
+ * marginal likelihood of days start..end as one segment (JUMP, LEVEL;
+ * without the terms common to every segmentation, see libtwofold(3)), and
+ * the log prior probability of a segment of length len (first: the first
+ * segment) ending (*log_pmf) or lasting at least len days (*log_surv).
+ * TWOFOLD_EINVAL for KINK or before a run, TWOFOLD_ERANGE for days out of
+ * range. */
+TWOFOLD_API int twofold_changes_segment_logml(const twofold_changes *ch,
+                                              size_t start, size_t end,
+                                              double *logml);
+TWOFOLD_API int twofold_changes_length_prior(const twofold_changes *ch,
+                                             size_t len, int first,
+                                             double *log_pmf,
+                                             double *log_surv);
+
+/* Online filter (Fearnhead & Liu 2007) for JUMP and LEVEL segments.
+ * history[0..n_history-1] (may be NULL with n_history 0) estimates the
+ * weekday effects, the dispersion (when the options ask for it; without
+ * history phi = 1) and the level prior scale as the offline run would, and
+ * is fed to the filter; first_weekday is the ISO weekday of the first day
+ * (of the history, or of the first added day).  At most max_candidates
+ * (>= 2) candidate last changes are kept, reduced by stratified optimal
+ * resampling seeded by seed.  o may be NULL.  Caller frees. */
+typedef struct twofold_online twofold_online;
+
+TWOFOLD_API int twofold_online_new(const twofold_cp_options *o,
+                                   const double *history, size_t n_history,
+                                   int first_weekday, size_t max_candidates,
+                                   uint64_t seed, twofold_online **out);
+TWOFOLD_API void twofold_online_free(twofold_online *on);
+TWOFOLD_API const char *twofold_online_errmsg(const twofold_online *on);
+/* Add the next day's count (NaN = missing). */
+TWOFOLD_API int twofold_online_add(twofold_online *on, double y);
+/* Days added so far (history included) and candidates kept. */
+TWOFOLD_API size_t twofold_online_days(const twofold_online *on);
+TWOFOLD_API size_t twofold_online_candidates(const twofold_online *on);
+/* P(a new regime started within the last k days | data so far), k >= 1
+ * (k = 1: today is the first day of a new regime). */
+TWOFOLD_API int twofold_online_p_recent(const twofold_online *on, size_t k,
+                                        double *p);
+/* Growth rate today: posterior mean and credible interval (normal
+ * approximation of the mixture). */
+TWOFOLD_API int twofold_online_growth(const twofold_online *on, double *mean,
+                                      double *lo, double *hi);
+/* log p(y_t | y_1..t-1) of the last day added (NaN if none). */
+TWOFOLD_API double twofold_online_log_predictive(const twofold_online *on);
 
 #ifdef __cplusplus
 }

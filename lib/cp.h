@@ -1,0 +1,154 @@
+/* SPDX-License-Identifier: GPL-3.0-or-later */
+/* Private to the changepoint module (changes.c, segment.c, online.c). */
+#ifndef TWOFOLD_CP_H
+#define TWOFOLD_CP_H
+
+#include "internal.h"
+
+#include <math.h>
+#include <stddef.h>
+#include <stdint.h>
+
+/* The options object. */
+struct twofold_cp_options {
+  int kind;
+  double mean_len;     /* mean segment length, days                      */
+  int min_seg;         /* minimum segment length                         */
+  int shape;           /* negative-binomial shape k                      */
+  double rmean, rsd;   /* growth-rate prior                              */
+  double alpha, beta;  /* level prior (beta 0: scale-aware default)      */
+  double phi;          /* 0: estimate                                    */
+  int weekday;
+  double prune;
+  int max_changes;
+  double level;
+  int grid;
+  char msg[TF_ERRMSG_SIZE];
+};
+
+void tf_cp_options_defaults(struct twofold_cp_options *o);
+
+/* A series prepared for segment computations: weekday weights, dispersion,
+ * priors and prefix sums over days (index t covers days 0..t-1). */
+typedef struct tf_cpdata {
+  size_t n;
+  int kind;
+  int cls0;            /* class (ISO weekday - 1) of day 0                */
+  double delta[7];     /* weekday effects by class, sum zero             */
+  double wcls[7];      /* exp(delta)                                     */
+  double phi, alpha, beta, rmean, rsd;
+  double *y;           /* copy, NaN missing                              */
+  double *cy, *cty, *cw, *cconst; /* prefix sums, n+1 each              */
+  size_t *cmiss;       /* missing days before t, n+1                     */
+  size_t *miss;        /* indices of missing days                        */
+  size_t nmiss;
+  double ybar;         /* (Y + 0.5) / W over the series                  */
+} tf_cpdata;
+
+/* Fill d from y (validated by the caller).  phi_opt 0 estimates phi;
+ * weekday 0 leaves the effects at zero.  beta 0 takes alpha / ybar.
+ * Returns 0 or TWOFOLD_ENOMEM. */
+int tf_cp_prepare(tf_cpdata *d, const struct twofold_cp_options *o,
+                  const double *y, size_t n, int first_weekday);
+void tf_cp_data_free(tf_cpdata *d);
+
+/* Class of day t. */
+static inline int tf_cls(const tf_cpdata *d, size_t t) {
+  return (int)((size_t)d->cls0 + t) % 7;
+}
+
+/* Sums over the present days of [s, e]: Y, sum t*y. */
+static inline double tf_sumy(const tf_cpdata *d, size_t s, size_t e) {
+  return d->cy[e + 1] - d->cy[s];
+}
+static inline double tf_sumty(const tf_cpdata *d, size_t s, size_t e) {
+  return d->cty[e + 1] - d->cty[s];
+}
+
+/* log E0, E1/E0 and E2/E0 of E_k = sum_{t=s..e, present} w_t (t-c)^k
+ * e^{b (t-c)}, by closed-form geometric sums per weekday class (METHODS
+ * B2, B3).  m1, m2 may be NULL. */
+void tf_esums(const tf_cpdata *d, size_t s, size_t e, double c, double b,
+              double *logE0, double *m1, double *m2);
+
+/* LEVEL segment: exact log marginal likelihood (without the per-day
+ * constants); *lvl (may be NULL) the posterior mean level. */
+double tf_seg_level(const tf_cpdata *d, size_t s, size_t e, double *lvl);
+/* JUMP segment: exact in the level, Laplace in the growth rate.  *b on
+ * entry is the starting value, on return the posterior mode; *bvar the
+ * Laplace variance; *lvl (may be NULL) the posterior mean level. */
+double tf_seg_jump(const tf_cpdata *d, size_t s, size_t e, double *b,
+                   double *bvar, double *lvl);
+
+/* Segment-length prior tables (log), lengths 0..n. */
+typedef struct tf_lenprior {
+  size_t n;
+  double *lg, *lS, *lg0, *lS0;
+  double mean;
+} tf_lenprior;
+
+int tf_lenprior_init(tf_lenprior *lp, size_t n, int min_seg, int shape,
+                     double mean);
+void tf_lenprior_free(tf_lenprior *lp);
+/* log pmf of length len for a segment starting at s (s == 0: first). */
+static inline double tf_lg(const tf_lenprior *lp, size_t s, size_t len) {
+  return s == 0 ? lp->lg0[len] : lp->lg[len];
+}
+/* log P(length >= len). */
+static inline double tf_lsurv(const tf_lenprior *lp, size_t s, size_t len) {
+  return s == 0 ? lp->lS0[len - 1] : lp->lS[len - 1];
+}
+
+static inline double tf_lse(double a, double b) {
+  if (a == -INFINITY)
+    return b;
+  if (b == -INFINITY)
+    return a;
+  return a > b ? a + log1p(exp(b - a)) : b + log1p(exp(a - b));
+}
+
+/* A small deterministic generator (xoshiro256**, seeded by splitmix64). */
+typedef struct tf_rng {
+  uint64_t s[4];
+} tf_rng;
+void tf_rng_seed(tf_rng *r, uint64_t seed);
+double tf_rng_unif(tf_rng *r);  /* in (0, 1) */
+double tf_rng_norm(tf_rng *r);
+
+/* Validation shared by the offline run and the online filter. */
+int tf_cp_check_counts(const double *y, size_t n, char *msg);
+
+#endif
+
+/* The posterior object.  Fields filled by the JUMP/LEVEL recursions
+ * (changes.c) or by the KINK grid recursions (kink.c). */
+struct twofold_changes {
+  int status;
+  char msg[TF_ERRMSG_SIZE];
+  int ok;
+  size_t n;
+  struct twofold_cp_options opt;
+  tf_cpdata d;
+  tf_lenprior lp;
+  double logZ;     /* log p(y) without the per-day constants */
+  /* JUMP/LEVEL: recursions and the segment cache */
+  double *Q, *Fa;  /* n+1 each */
+  size_t *stop, *off;
+  double *clogP, *cb, *cv;
+  size_t ncache, capcache;
+  /* results */
+  double *pch, *gmean, *gsd; /* n each */
+  double *kprob;             /* max_changes + 1 */
+  double ktail, kmean;
+  size_t nmap;
+  size_t *mapstart;          /* nmap + 1 segment starts */
+  double *mapb, *mapbsd, *maplvl; /* per MAP segment */
+  /* KINK */
+  struct tf_kink *kink;
+};
+
+int tf_kink_run(struct twofold_changes *ch);
+void tf_kink_free(struct tf_kink *k);
+int tf_kink_sample(const struct twofold_changes *ch, uint64_t seed,
+                   size_t draws, unsigned char *change, double *rate,
+                   size_t *count);

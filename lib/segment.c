@@ -1,0 +1,692 @@
+/* SPDX-License-Identifier: GPL-3.0-or-later */
+/*
+ * Segment computations for the changepoint module: the once-per-series
+ * estimates of weekday effects and dispersion, prefix sums, closed-form
+ * geometric sums per weekday class, segment marginal likelihoods, the
+ * segment-length prior and a seeded generator.
+ *
+ * Segment marginals (METHODS B1-B5): on [s, e] with u = t - c,
+ * log mu_t = log lambda + b u + delta_{weekday(t)}; the Poisson
+ * log-likelihood of each day is divided by phi (a tempered or power
+ * likelihood: Holmes & Walker 2017, Biometrika 104:497-503; Grunwald & van
+ * Ommen 2017, Bayesian Analysis 12:1069-1103), which inflates posterior
+ * variances about phi-fold as quasi-likelihood standard errors do (Wedderburn
+ * 1974, Biometrika 61:439-447).  lambda ~ Gamma(alpha, beta) is integrated
+ * out exactly; b ~ N(mean, sd^2) by a one-dimensional Laplace
+ * approximation (Tierney & Kadane 1986, JASA 81:82-86).
+ */
+#include "cp.h"
+
+#include <float.h>
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+/* ---- generator ------------------------------------------------------- */
+
+static uint64_t splitmix64(uint64_t *x) {
+  uint64_t z = (*x += 0x9e3779b97f4a7c15ULL);
+  z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ULL;
+  z = (z ^ (z >> 27)) * 0x94d049bb133111ebULL;
+  return z ^ (z >> 31);
+}
+
+void tf_rng_seed(tf_rng *r, uint64_t seed) {
+  uint64_t x = seed;
+  for (int i = 0; i < 4; i++)
+    r->s[i] = splitmix64(&x);
+}
+
+static uint64_t rotl(uint64_t x, int k) { return (x << k) | (x >> (64 - k)); }
+
+static uint64_t rng_next(tf_rng *r) {
+  uint64_t *s = r->s;
+  uint64_t res = rotl(s[1] * 5, 7) * 9;
+  uint64_t t = s[1] << 17;
+  s[2] ^= s[0];
+  s[3] ^= s[1];
+  s[1] ^= s[2];
+  s[0] ^= s[3];
+  s[2] ^= t;
+  s[3] = rotl(s[3], 45);
+  return res;
+}
+
+double tf_rng_unif(tf_rng *r) {
+  return ((double)(rng_next(r) >> 11) + 0.5) * (1.0 / 9007199254740992.0);
+}
+
+double tf_rng_norm(tf_rng *r) {
+  double u = tf_rng_unif(r), v = tf_rng_unif(r);
+  return sqrt(-2.0 * log(u)) * cos(6.283185307179586 * v);
+}
+
+/* ---- validation -------------------------------------------------------- */
+
+int tf_cp_check_counts(const double *y, size_t n, char *msg) {
+  for (size_t i = 0; i < n; i++)
+    if (!tf_count_ok(y[i]))
+      return tf_msg_set(msg, TWOFOLD_ECOUNT,
+                        "day %zu: count %g is not a whole number in "
+                        "[0, 2^53] or NaN",
+                        i, y[i]);
+  return 0;
+}
+
+/* ---- geometric sums (METHODS B2) -------------------------------------- */
+
+/* For m = 0..L-1 with weights e^{B m}: log of their sum, and the mean and
+ * variance of m. */
+static void geo(double B, size_t L, double *logG, double *M, double *V) {
+  double Ld = (double)L;
+  if (L == 1) {
+    *logG = 0;
+    *M = 0;
+    *V = 0;
+    return;
+  }
+  double BL = B * Ld;
+  if (fabs(BL) < 0.05) {
+    double L2 = Ld * Ld, L4 = L2 * L2, L6 = L4 * L2, B2 = B * B;
+    *M = (Ld - 1) / 2 + B * (L2 - 1) / 12 - B * B2 * (L4 - 1) / 720 +
+         B * B2 * B2 * (L6 - 1) / 30240;
+    *V = (L2 - 1) / 12 - B2 * (L4 - 1) / 240 + B2 * B2 * (L6 - 1) / 6048;
+    /* log G = log L + B (L-1)/2 + B^2 (L^2-1)/24 - B^4 (L^4-1)/2880 */
+    *logG = log(Ld) + B * (Ld - 1) / 2 + B2 * (L2 - 1) / 24 -
+            B2 * B2 * (L4 - 1) / 2880;
+    return;
+  }
+  if (B > 0)
+    *logG = B * (Ld - 1) + log(-expm1(-BL)) - log(-expm1(-B));
+  else
+    *logG = log(-expm1(BL)) - log(-expm1(B));
+  *M = Ld / (-expm1(-BL)) - 1 / (-expm1(-B));
+  double sh = sinh(B / 2), shL = sinh(BL / 2);
+  double v = 1 / (4 * sh * sh);
+  if (isfinite(shL))
+    v -= Ld * Ld / (4 * shL * shL);
+  *V = v > 0 ? v : 0;
+}
+
+void tf_esums(const tf_cpdata *d, size_t s, size_t e, double c, double b,
+              double *logE0, double *m1, double *m2) {
+  size_t L = e - s + 1;
+  size_t nm = d->cmiss[e + 1] - d->cmiss[s];
+  double lc[7], mu[7], sq[7];
+  int nc = 0;
+  double mx = -INFINITY;
+  if (nm == 0 || nm * 4 < L) {
+    size_t q = L / 7, r = L % 7;
+    double lG[2] = {0, 0}, M[2] = {0, 0}, V[2] = {0, 0};
+    if (q > 0)
+      geo(7 * b, q, &lG[0], &M[0], &V[0]);
+    geo(7 * b, q + 1, &lG[1], &M[1], &V[1]);
+    for (size_t j = 0; j < 7 && j < L; j++) {
+      int k = j < r ? 1 : 0;
+      double u0 = (double)(s + j) - c;
+      lc[nc] = d->delta[tf_cls(d, s + j)] + b * u0 + lG[k];
+      mu[nc] = u0 + 7 * M[k];
+      sq[nc] = mu[nc] * mu[nc] + 49 * V[k];
+      if (lc[nc] > mx)
+        mx = lc[nc];
+      nc++;
+    }
+    double E0 = 0, E1 = 0, E2 = 0;
+    for (int j = 0; j < nc; j++) {
+      double w = exp(lc[j] - mx);
+      E0 += w;
+      E1 += w * mu[j];
+      E2 += w * sq[j];
+    }
+    if (nm > 0) {
+      /* subtract the missing days (METHODS B3) */
+      size_t i0 = d->cmiss[s];
+      for (size_t i = i0; i < i0 + nm; i++) {
+        size_t t = d->miss[i];
+        double u = (double)t - c;
+        double w = exp(d->delta[tf_cls(d, t)] + b * u - mx);
+        E0 -= w;
+        E1 -= w * u;
+        E2 -= w * u * u;
+      }
+      if (!(E0 > 1e-12 * (double)L))
+        goto direct;
+    }
+    *logE0 = mx + log(E0);
+    if (m1)
+      *m1 = E1 / E0;
+    if (m2)
+      *m2 = E2 / E0;
+    return;
+  }
+direct:
+  /* many missing days: sum the present days directly */
+  mx = -INFINITY;
+  for (size_t t = s; t <= e; t++) {
+    if (tf_isnan(d->y[t]))
+      continue;
+    double v = d->delta[tf_cls(d, t)] + b * ((double)t - c);
+    if (v > mx)
+      mx = v;
+  }
+  if (mx == -INFINITY) {
+    *logE0 = -INFINITY;
+    if (m1)
+      *m1 = 0;
+    if (m2)
+      *m2 = 0;
+    return;
+  }
+  double E0 = 0, E1 = 0, E2 = 0;
+  for (size_t t = s; t <= e; t++) {
+    if (tf_isnan(d->y[t]))
+      continue;
+    double u = (double)t - c;
+    double w = exp(d->delta[tf_cls(d, t)] + b * u - mx);
+    E0 += w;
+    E1 += w * u;
+    E2 += w * u * u;
+  }
+  *logE0 = mx + log(E0);
+  if (m1)
+    *m1 = E1 / E0;
+  if (m2)
+    *m2 = E2 / E0;
+}
+
+/* ---- segment marginals (METHODS B5) ----------------------------------- */
+
+double tf_seg_level(const tf_cpdata *d, size_t s, size_t e, double *lvl) {
+  double Y = tf_sumy(d, s, e), W = d->cw[e + 1] - d->cw[s];
+  double ap = d->alpha + Y / d->phi, bp = d->beta + W / d->phi;
+  if (lvl)
+    *lvl = ap / bp;
+  return d->alpha * log(d->beta) - lgamma(d->alpha) + lgamma(ap) -
+         ap * log(bp);
+}
+
+/* f(b) of B5 without the b-free constants, and its derivatives. */
+static double jump_f(const tf_cpdata *d, size_t s, size_t e, double c,
+                     double Y, double S1, double b, double *f1, double *f2,
+                     double *lbp) {
+  double lE0, m1, m2;
+  tf_esums(d, s, e, c, b, &lE0, &m1, &m2);
+  double phi = d->phi, ap = d->alpha + Y / phi;
+  double lb = log(d->beta), lx = lE0 - log(phi);
+  double l = tf_lse(lb, lx);
+  double rho = exp(lb - lx); /* beta phi / E0; inf when E0 = 0 */
+  double r = 1 / (1 + rho);
+  double z = (b - d->rmean) / d->rsd;
+  double f = b * S1 / phi - ap * l - 0.5 * z * z;
+  if (f1)
+    *f1 = S1 / phi - ap * m1 * r - z / d->rsd;
+  if (f2) {
+    double V = m2 - m1 * m1;
+    if (V < 0)
+      V = 0;
+    double t = isfinite(rho) ? r * r * (V + rho * m2) : 0;
+    *f2 = -ap * t - 1 / (d->rsd * d->rsd);
+  }
+  if (lbp)
+    *lbp = l;
+  return f;
+}
+
+double tf_seg_jump(const tf_cpdata *d, size_t s, size_t e, double *bio,
+                   double *bvar, double *lvl) {
+  double c = 0.5 * ((double)s + (double)e);
+  double Y = tf_sumy(d, s, e), S1 = tf_sumty(d, s, e) - c * Y;
+  double b = isfinite(*bio) ? *bio : d->rmean;
+  double f1, f2, lbp;
+  double f = jump_f(d, s, e, c, Y, S1, b, &f1, &f2, &lbp);
+  for (int it = 0; it < 60; it++) {
+    double step = -f1 / f2;
+    double bn = b + step, f1n, f2n, lbn;
+    double fn = jump_f(d, s, e, c, Y, S1, bn, &f1n, &f2n, &lbn);
+    int h = 0;
+    while (!(fn >= f - 1e-12 * fabs(f)) && h < 40) {
+      step *= 0.5;
+      bn = b + step;
+      fn = jump_f(d, s, e, c, Y, S1, bn, &f1n, &f2n, &lbn);
+      h++;
+    }
+    b = bn;
+    f = fn;
+    f1 = f1n;
+    f2 = f2n;
+    lbp = lbn;
+    if (fabs(step) < 1e-10 * (1 + fabs(b)))
+      break;
+  }
+  /* f was evaluated at the final b: a last Newton step would change it by
+   * O(step^2), below double precision here. */
+  double ap = d->alpha + Y / d->phi;
+  *bio = b;
+  *bvar = -1 / f2;
+  if (lvl)
+    *lvl = ap / exp(lbp);
+  return f + d->alpha * log(d->beta) - lgamma(d->alpha) + lgamma(ap) -
+         log(d->rsd) - 0.5 * log(-f2);
+  /* the 1/sqrt(2 pi) of N(b) cancels the sqrt(2 pi) of the Laplace step */
+}
+
+/* ---- segment-length prior (METHODS A1) -------------------------------- */
+
+/* log P(L > len) for L = min_seg - k + X, X ~ negative binomial (number of
+ * trials for k successes of probability q). */
+static double lsurv_nb(size_t len, int m, int k, double q) {
+  if (len < (size_t)m)
+    return 0;
+  double x = (double)(len - (size_t)m + (size_t)k);
+  /* P(Bin(x, q) < k) */
+  double acc = -INFINITY;
+  for (int i = 0; i < k; i++)
+    acc = tf_lse(acc, lgamma(x + 1) - lgamma(i + 1.0) - lgamma(x - i + 1) +
+                          i * log(q) + (x - i) * log1p(-q));
+  return acc;
+}
+
+static double lpmf_nb(size_t len, int m, int k, double q) {
+  if (len < (size_t)m)
+    return -INFINITY;
+  double x = (double)(len - (size_t)m + (size_t)k);
+  return lgamma(x) - lgamma((double)k) - lgamma(x - k + 1) + k * log(q) +
+         (x - k) * log1p(-q);
+}
+
+int tf_lenprior_init(tf_lenprior *lp, size_t n, int m, int k, double mean) {
+  memset(lp, 0, sizeof *lp);
+  lp->n = n;
+  lp->mean = mean;
+  double q = k / (mean - m + k);
+  size_t far = n + (size_t)m + (size_t)ceil(60.0 * (k + 1) / q) + 10;
+  lp->lg = malloc((n + 1) * sizeof(double));
+  lp->lS = malloc((n + 1) * sizeof(double));
+  lp->lg0 = malloc((n + 1) * sizeof(double));
+  lp->lS0 = malloc((n + 1) * sizeof(double));
+  if (!lp->lg || !lp->lS || !lp->lg0 || !lp->lS0) {
+    tf_lenprior_free(lp);
+    return TWOFOLD_ENOMEM;
+  }
+  lp->lg[0] = -INFINITY;
+  for (size_t l = 0; l <= n; l++) {
+    if (l > 0)
+      lp->lg[l] = lpmf_nb(l, m, k, q);
+    lp->lS[l] = lsurv_nb(l, m, k, q);
+  }
+  /* Stationary first segment: g0(l) = S(l-1)/mean, S0(l) = T(l)/mean with
+   * T(l) = sum_{j >= l} S(j), summed from far out (geometric tail). */
+  double T = lsurv_nb(far, m, k, q) - log(q);
+  for (size_t j = far; j-- > n + 1;)
+    T = tf_lse(T, lsurv_nb(j, m, k, q));
+  double lmean = log(mean);
+  for (size_t l = n + 1; l-- > 0;) {
+    T = tf_lse(T, lp->lS[l]);
+    lp->lS0[l] = T - lmean;
+  }
+  lp->lg0[0] = -INFINITY;
+  for (size_t l = 1; l <= n; l++)
+    lp->lg0[l] = lp->lS[l - 1] - lmean;
+  return 0;
+}
+
+void tf_lenprior_free(tf_lenprior *lp) {
+  if (!lp)
+    return;
+  free(lp->lg);
+  free(lp->lS);
+  free(lp->lg0);
+  free(lp->lS0);
+  lp->lg = lp->lS = lp->lg0 = lp->lS0 = NULL;
+}
+
+/* ---- once-per-series estimates: weekday effects and dispersion ---------
+ *
+ * A Poisson log-linear fit with a separate level and slope in each block
+ * of 14 days (two whole weeks, so every weekday is balanced) and weekday
+ * effects shared by all blocks, by penalized Newton (weak normal priors
+ * keep all-zero blocks finite); the 2x2 block systems are eliminated by
+ * the Schur complement, so the cost is O(n).  phi is the Pearson X^2/df of
+ * that fit, made robust to backlog spikes by winsorizing squared Pearson
+ * residuals at 9 phi (iterated, divided by E min(Z^2, 9) = 0.99501 for a
+ * normal Z), floored at 1 (Poisson).  McCullagh & Nelder (1989,
+ * Generalized Linear Models, 2nd ed., sec. 4.5) for the Pearson estimate;
+ * winsorizing is common practice, no source. */
+
+#define BLOCK 14
+
+typedef struct {
+  size_t lo, hi; /* days [lo, hi) */
+  double a, b, c; /* level, slope per week, centre day */
+} fit_block;
+
+static int solve_sym(double *A, double *x, int p) {
+  /* Cholesky of the p x p SPD matrix A (row-major), solve A x = rhs in x. */
+  for (int j = 0; j < p; j++) {
+    double s = A[j * p + j];
+    for (int k = 0; k < j; k++)
+      s -= A[j * p + k] * A[j * p + k];
+    if (!(s > 0))
+      return -1;
+    double l = sqrt(s);
+    A[j * p + j] = l;
+    for (int i = j + 1; i < p; i++) {
+      double t = A[i * p + j];
+      for (int k = 0; k < j; k++)
+        t -= A[i * p + k] * A[j * p + k];
+      A[i * p + j] = t / l;
+    }
+  }
+  for (int i = 0; i < p; i++) {
+    double t = x[i];
+    for (int k = 0; k < i; k++)
+      t -= A[i * p + k] * x[k];
+    x[i] = t / A[i * p + i];
+  }
+  for (int i = p; i-- > 0;) {
+    double t = x[i];
+    for (int k = i + 1; k < p; k++)
+      t -= A[k * p + i] * x[k];
+    x[i] = t / A[i * p + i];
+  }
+  return 0;
+}
+
+static double pfit_obj(const tf_cpdata *d, const fit_block *bl, size_t nb,
+                       const double *dl, int nd, double a0) {
+  double f = 0;
+  for (size_t k = 0; k < nb; k++) {
+    for (size_t t = bl[k].lo; t < bl[k].hi; t++) {
+      if (tf_isnan(d->y[t]))
+        continue;
+      int c = tf_cls(d, t);
+      double eta = bl[k].a + bl[k].b * ((double)t - bl[k].c) / 7 +
+                   (nd && c > 0 ? dl[c - 1] : 0);
+      f += d->y[t] * eta - exp(eta);
+    }
+    f -= (bl[k].a - a0) * (bl[k].a - a0) / 200 + bl[k].b * bl[k].b / 4.5;
+  }
+  for (int c = 0; c < nd; c++)
+    f -= dl[c] * dl[c] / 2;
+  return f;
+}
+
+static int estimate_effects(tf_cpdata *d, int weekday, int want_phi) {
+  size_t n = d->n;
+  size_t nb = (n + BLOCK - 1) / BLOCK;
+  if (nb > 1 && n - (nb - 1) * BLOCK < BLOCK / 2)
+    nb--;
+  fit_block *bl = calloc(nb, sizeof *bl);
+  double *sv = malloc(nb * 2 * sizeof(double));
+  if (!bl || !sv) {
+    free(bl);
+    free(sv);
+    return TWOFOLD_ENOMEM;
+  }
+  double a0 = log(d->ybar);
+  for (size_t k = 0; k < nb; k++) {
+    bl[k].lo = k * BLOCK;
+    bl[k].hi = k + 1 == nb ? n : (k + 1) * BLOCK;
+    bl[k].c = 0.5 * ((double)bl[k].lo + (double)bl[k].hi - 1);
+    double Y = d->cy[bl[k].hi] - d->cy[bl[k].lo];
+    double W = (double)(bl[k].hi - bl[k].lo) -
+               (double)(d->cmiss[bl[k].hi] - d->cmiss[bl[k].lo]);
+    bl[k].a = W > 0 ? log((Y + 0.5) / W) : a0;
+    bl[k].b = 0;
+  }
+  int nd = weekday ? 6 : 0;
+  double dl[6] = {0, 0, 0, 0, 0, 0};
+  double f = pfit_obj(d, bl, nb, dl, nd, a0);
+  for (int it = 0; it < 60; it++) {
+    double S[36], r[6];
+    memset(S, 0, sizeof S);
+    memset(r, 0, sizeof r);
+    /* shared block: D and its gradient */
+    double Dd[6] = {0}, gd[6] = {0};
+    for (size_t k = 0; k < nb; k++) {
+      double H[3] = {1.0 / 100, 0, 1 / 2.25}, g[2], C[2][6];
+      g[0] = -(bl[k].a - a0) / 100;
+      g[1] = -bl[k].b / 2.25;
+      memset(C, 0, sizeof C);
+      for (size_t t = bl[k].lo; t < bl[k].hi; t++) {
+        if (tf_isnan(d->y[t]))
+          continue;
+        int c = tf_cls(d, t);
+        double u = ((double)t - bl[k].c) / 7;
+        double eta =
+            bl[k].a + bl[k].b * u + (nd && c > 0 ? dl[c - 1] : 0);
+        double mu = exp(eta), res = d->y[t] - mu;
+        H[0] += mu;
+        H[1] += mu * u;
+        H[2] += mu * u * u;
+        g[0] += res;
+        g[1] += res * u;
+        if (nd && c > 0) {
+          C[0][c - 1] += mu;
+          C[1][c - 1] += mu * u;
+          Dd[c - 1] += mu;
+          gd[c - 1] += res;
+        }
+      }
+      double det = H[0] * H[2] - H[1] * H[1];
+      double Hi[3] = {H[2] / det, -H[1] / det, H[0] / det};
+      /* Schur complement contributions */
+      for (int i = 0; i < nd; i++) {
+        double hi0 = Hi[0] * C[0][i] + Hi[1] * C[1][i];
+        double hi1 = Hi[1] * C[0][i] + Hi[2] * C[1][i];
+        r[i] -= hi0 * g[0] + hi1 * g[1];
+        for (int j = 0; j < nd; j++)
+          S[i * 6 + j] -= hi0 * C[0][j] + hi1 * C[1][j];
+      }
+    }
+    double z[6] = {0, 0, 0, 0, 0, 0};
+    if (nd) {
+      double A[36];
+      for (int i = 0; i < 6; i++)
+        for (int j = 0; j < 6; j++)
+          A[i * 6 + j] = S[i * 6 + j] + (i == j ? Dd[i] + 1.0 : 0.0);
+      for (int i = 0; i < 6; i++)
+        z[i] = r[i] + gd[i] - dl[i];
+      if (solve_sym(A, z, 6) != 0)
+        break;
+    }
+    /* block steps x_k = H_k^-1 (g_k - C_k z): second pass */
+    double *da = sv; /* reuse: da[2k], da[2k+1] */
+    for (size_t k = 0; k < nb; k++) {
+      double H[3] = {1.0 / 100, 0, 1 / 2.25}, g[2], Cz[2] = {0, 0};
+      g[0] = -(bl[k].a - a0) / 100;
+      g[1] = -bl[k].b / 2.25;
+      for (size_t t = bl[k].lo; t < bl[k].hi; t++) {
+        if (tf_isnan(d->y[t]))
+          continue;
+        int c = tf_cls(d, t);
+        double u = ((double)t - bl[k].c) / 7;
+        double eta =
+            bl[k].a + bl[k].b * u + (nd && c > 0 ? dl[c - 1] : 0);
+        double mu = exp(eta), res = d->y[t] - mu;
+        H[0] += mu;
+        H[1] += mu * u;
+        H[2] += mu * u * u;
+        g[0] += res;
+        g[1] += res * u;
+        if (nd && c > 0) {
+          Cz[0] += mu * z[c - 1];
+          Cz[1] += mu * u * z[c - 1];
+        }
+      }
+      double det = H[0] * H[2] - H[1] * H[1];
+      double r0 = g[0] - Cz[0], r1 = g[1] - Cz[1];
+      da[2 * k] = (H[2] * r0 - H[1] * r1) / det;
+      da[2 * k + 1] = (H[0] * r1 - H[1] * r0) / det;
+    }
+    /* step halving on the penalized log-likelihood */
+    double mstep = 0;
+    for (size_t k = 0; k < 2 * nb; k++)
+      mstep = fmax(mstep, fabs(da[k]));
+    for (int c = 0; c < nd; c++)
+      mstep = fmax(mstep, fabs(z[c]));
+    double lam = mstep > 5 ? 5 / mstep : 1;
+    double odl[6];
+    memcpy(odl, dl, sizeof odl);
+    double fn = f;
+    int ok = 0;
+    for (int h = 0; h < 30; h++) {
+      for (size_t k = 0; k < nb; k++) {
+        bl[k].a += lam * da[2 * k];
+        bl[k].b += lam * da[2 * k + 1];
+      }
+      for (int c = 0; c < nd; c++)
+        dl[c] = odl[c] + lam * z[c];
+      fn = pfit_obj(d, bl, nb, dl, nd, a0);
+      if (fn >= f - 1e-12 * fabs(f)) {
+        ok = 1;
+        break;
+      }
+      for (size_t k = 0; k < nb; k++) {
+        bl[k].a -= lam * da[2 * k];
+        bl[k].b -= lam * da[2 * k + 1];
+      }
+      lam *= 0.5;
+    }
+    if (!ok) {
+      memcpy(dl, odl, sizeof odl);
+      break;
+    }
+    double df = fn - f;
+    f = fn;
+    if (lam * mstep < 1e-9 || df < 1e-10 * (1 + fabs(f)))
+      break;
+  }
+  /* weekday effects, centred to sum zero */
+  double full[7] = {0, 0, 0, 0, 0, 0, 0}, mean = 0;
+  for (int c = 1; c < 7; c++)
+    full[c] = nd ? dl[c - 1] : 0;
+  for (int c = 0; c < 7; c++)
+    mean += full[c] / 7;
+  for (int c = 0; c < 7; c++)
+    d->delta[c] = weekday ? full[c] - mean : 0;
+  if (want_phi) {
+    size_t np = n - d->nmiss;
+    double p = 2.0 * (double)nb + nd;
+    double df = (double)np - p;
+    double phi = 1;
+    if (df >= 5) {
+      double *r2 = malloc(np * sizeof(double));
+      if (!r2) {
+        free(bl);
+        free(sv);
+        return TWOFOLD_ENOMEM;
+      }
+      size_t m = 0;
+      for (size_t k = 0; k < nb; k++)
+        for (size_t t = bl[k].lo; t < bl[k].hi; t++) {
+          if (tf_isnan(d->y[t]))
+            continue;
+          int c = tf_cls(d, t);
+          double eta = bl[k].a + bl[k].b * ((double)t - bl[k].c) / 7 +
+                       (nd && c > 0 ? dl[c - 1] : 0);
+          double mu = exp(eta);
+          r2[m++] = (d->y[t] - mu) * (d->y[t] - mu) / mu;
+        }
+      double sum = 0;
+      for (size_t i = 0; i < m; i++)
+        sum += r2[i];
+      phi = sum / df;
+      for (int it = 0; it < 20; it++) {
+        double cap = 9 * (phi > 1 ? phi : 1), s2 = 0;
+        for (size_t i = 0; i < m; i++)
+          s2 += r2[i] < cap ? r2[i] : cap;
+        double nphi = s2 / (df * 0.9950073);
+        if (fabs(nphi - phi) < 1e-12 * phi) {
+          phi = nphi;
+          break;
+        }
+        phi = nphi;
+      }
+      free(r2);
+    }
+    d->phi = phi > 1 ? phi : 1;
+  }
+  free(bl);
+  free(sv);
+  return 0;
+}
+
+void tf_cp_data_free(tf_cpdata *d) {
+  if (!d)
+    return;
+  free(d->y);
+  free(d->cy);
+  free(d->cty);
+  free(d->cw);
+  free(d->cconst);
+  free(d->cmiss);
+  free(d->miss);
+  memset(d, 0, sizeof *d);
+}
+
+int tf_cp_prepare(tf_cpdata *d, const struct twofold_cp_options *o,
+                  const double *y, size_t n, int first_weekday) {
+  memset(d, 0, sizeof *d);
+  d->n = n;
+  d->kind = o->kind;
+  d->cls0 = first_weekday - 1;
+  d->alpha = o->alpha;
+  d->rmean = o->rmean;
+  d->rsd = o->rsd;
+  d->phi = o->phi > 0 ? o->phi : 1;
+  d->y = malloc((n ? n : 1) * sizeof(double));
+  d->cy = malloc((n + 1) * sizeof(double));
+  d->cty = malloc((n + 1) * sizeof(double));
+  d->cw = malloc((n + 1) * sizeof(double));
+  d->cconst = malloc((n + 1) * sizeof(double));
+  d->cmiss = malloc((n + 1) * sizeof(size_t));
+  size_t nm = 0;
+  for (size_t t = 0; t < n; t++)
+    nm += tf_isnan(y[t]);
+  d->miss = malloc((nm ? nm : 1) * sizeof(size_t));
+  if (!d->y || !d->cy || !d->cty || !d->cw || !d->cconst || !d->cmiss ||
+      !d->miss) {
+    tf_cp_data_free(d);
+    return TWOFOLD_ENOMEM;
+  }
+  if (n)
+    memcpy(d->y, y, n * sizeof(double));
+  d->nmiss = 0;
+  d->cmiss[0] = 0;
+  d->cy[0] = d->cty[0] = 0;
+  for (size_t t = 0; t < n; t++) {
+    int m = tf_isnan(y[t]);
+    if (m)
+      d->miss[d->nmiss++] = t;
+    d->cmiss[t + 1] = d->cmiss[t] + (size_t)m;
+    d->cy[t + 1] = d->cy[t] + (m ? 0 : y[t]);
+    d->cty[t + 1] = d->cty[t] + (m ? 0 : (double)t * y[t]);
+  }
+  size_t np = n - d->nmiss;
+  d->ybar = (d->cy[n] + 0.5) / (np ? (double)np : 1.0);
+  int rc = 0;
+  if (o->weekday || o->phi == 0)
+    rc = estimate_effects(d, o->weekday, o->phi == 0);
+  if (rc) {
+    tf_cp_data_free(d);
+    return rc;
+  }
+  double W = 0, cst = 0;
+  d->cw[0] = 0;
+  d->cconst[0] = 0;
+  for (int c = 0; c < 7; c++)
+    d->wcls[c] = exp(d->delta[c]);
+  for (size_t t = 0; t < n; t++) {
+    if (!tf_isnan(y[t])) {
+      int c = tf_cls(d, t);
+      W += d->wcls[c];
+      cst += (y[t] * d->delta[c] - lgamma(y[t] + 1)) / d->phi;
+    }
+    d->cw[t + 1] = W;
+    d->cconst[t + 1] = cst;
+  }
+  d->ybar = (d->cy[n] + 0.5) / (W > 0 ? W : 1.0);
+  d->beta = o->beta > 0 ? o->beta : o->alpha / d->ybar;
+  return 0;
+}
