@@ -106,25 +106,31 @@ START_TEST(date_invalid) {
 END_TEST
 
 START_TEST(date_round_trip_all) {
-  /* every day in range: to_ymd then from_ymd is the identity, consecutive
-   * days advance the weekday by one and the calendar by one day */
+  /* every day in range: to_ymd then from_ymd is the identity, and each day
+   * follows the previous one in the calendar.  Plain comparisons inside
+   * the loop keep 3.6 million iterations fast; the first failure is
+   * reported with its day. */
   int py = 0, pm = 0, pd = 0;
-  for (int32_t d = TWOFOLD_DAY_MIN; d <= TWOFOLD_DAY_MAX; d++) {
+  int32_t bad = INT32_MIN;
+  for (int32_t d = TWOFOLD_DAY_MIN; d <= TWOFOLD_DAY_MAX && bad == INT32_MIN;
+       d++) {
     int y, m, md;
-    ck_assert_int_eq(twofold_date_to_ymd(d, &y, &m, &md), 0);
-    int32_t back;
-    ck_assert_int_eq(twofold_date_from_ymd(y, m, md, &back), 0);
-    ck_assert_int_eq(back, d);
+    int32_t back = INT32_MIN;
+    if (twofold_date_to_ymd(d, &y, &m, &md) != 0 ||
+        twofold_date_from_ymd(y, m, md, &back) != 0 || back != d)
+      bad = d;
     if (d > TWOFOLD_DAY_MIN) {
       int next = (md == pd + 1 && m == pm && y == py) ||
                  (md == 1 && ((m == pm + 1 && y == py) ||
                               (m == 1 && pm == 12 && y == py + 1)));
-      ck_assert_msg(next, "day %d does not follow %d", d, d - 1);
+      if (!next)
+        bad = d;
     }
     py = y;
     pm = m;
     pd = md;
   }
+  ck_assert_msg(bad == INT32_MIN, "calendar broken at day %d", (int)bad);
 }
 END_TEST
 
