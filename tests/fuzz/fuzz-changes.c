@@ -19,7 +19,7 @@
 #include <math.h>
 #include <string.h>
 
-#define MAX_DAYS 160
+#define MAX_DAYS 100
 #define EPS 1e-9
 
 static const double per_year[] = {4, 1, 12, 0.01, 0, -1, NAN, 52, 1e6, 365};
