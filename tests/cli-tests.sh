@@ -18,6 +18,7 @@
 #                    from
 # A case that names no expectation at all is an error, not a pass.
 # Usage: tests/cli-tests.sh [CASE...]   (default: every case)
+# TWOFOLD_TEST_WRAPPER, if set, prefixes each command (make check-valgrind).
 set -u
 : "${top_srcdir:?}" "${top_builddir:?}"
 PYTHON3=${PYTHON3:-/usr/bin/python3}
@@ -74,7 +75,7 @@ for name in "${cases[@]}"; do
     else
       stdin=/dev/null
       [ -f "$CASE/stdin" ] && stdin=$CASE/stdin
-      (cd "$work" && "$PROGRAM_DIR/$prog" "$@" <"$stdin" >out 2>err)
+      (cd "$work" && ${TWOFOLD_TEST_WRAPPER:-} "$PROGRAM_DIR/$prog" "$@" <"$stdin" >out 2>err)
       status=$?
       echo "$status" >"$work/status"
       want=0
