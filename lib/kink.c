@@ -16,7 +16,8 @@
  * The approximation is the trapezoid rule over each knot's level, on a
  * common lattice of spacing h (so a segment needs one geometric sum per
  * lattice difference, not per pair): each knot covers its pilot level (a
- * centred 7-day mean) +- 4 pilot standard errors.  Forward, backward,
+ * centred 7-day mean) +- 8 pilot standard errors (+-4 left errors of 1e-2
+ * in the change probabilities on short series).  Forward, backward,
  * count and most-probable (Viterbi) recursions then run over (knot, grid
  * point) states; the error against enumeration with fine quadrature is
  * measured in tests/check_changes.c.
@@ -28,7 +29,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-#define KINK_R 4.0
+#define KINK_R 8.0
 #define PRUNE_RUN 14
 
 struct tf_kink {
