@@ -4,12 +4,15 @@
 
 #include <errno.h>
 #include <math.h>
+#include <pthread.h>
+#include <unistd.h>
 #include <stdlib.h>
 #include <string.h>
 
 int bk_input_init(bk_input *in, int nargs) {
   memset(in, 0, sizeof *in);
   in->layout = TWOFOLD_LAYOUT_AUTO;
+  in->threads = bk_default_threads();
   in->regions = calloc(nargs > 0 ? (size_t)nargs : 1, sizeof *in->regions);
   if (in->regions == NULL) {
     tf_cli_msg("out of memory");
@@ -131,6 +134,11 @@ int bk_parse_option(int c, const char *arg, bk_model *m, bk_input *in) {
       return st;
     in->have_as_of = 1;
     return 0;
+  case BK_OPT_THREADS:
+    if ((st = tf_cli_parse_long("--threads", arg, 1, 64, &v)))
+      return st;
+    in->threads = (int)v;
+    return 0;
   default:
     return -1;
   }
@@ -206,6 +214,9 @@ void bk_print_input_help(FILE *f) {
         " names\n"
         "                             the sum)\n"
         "      --no-total             leave out the sum over regions\n"
+        "      --threads=N            regions analysed at once (default: "
+        "processors\n"
+        "                             online, at most 4)\n"
         "Input:\n"
         "  -c, --count=COLUMN         count column to use (default: the "
         "first)\n"
@@ -474,4 +485,94 @@ double bk_norm_quantile2(double level) {
       hi = mid;
   }
   return 0.5 * (lo + hi);
+}
+
+/* ------------------------------------------------------------------ */
+/* Regions in parallel                                                 */
+/* ------------------------------------------------------------------ */
+
+typedef struct pool {
+  pthread_mutex_t lock;
+  size_t next, n;
+  int (*fn)(void *, size_t);
+  void *ctx;
+  int *status; /* per index */
+  int stop;
+} pool;
+
+static void *worker(void *arg) {
+  pool *p = arg;
+  for (;;) {
+    pthread_mutex_lock(&p->lock);
+    size_t i = p->next;
+    int stop = p->stop;
+    if (i < p->n && !stop)
+      p->next++;
+    pthread_mutex_unlock(&p->lock);
+    if (i >= p->n || stop)
+      return NULL;
+    int st = p->fn(p->ctx, i);
+    p->status[i] = st;
+    if (st != 0) {
+      pthread_mutex_lock(&p->lock);
+      p->stop = 1;
+      pthread_mutex_unlock(&p->lock);
+    }
+  }
+}
+
+int bk_default_threads(void) {
+  long c = sysconf(_SC_NPROCESSORS_ONLN);
+  if (c < 1)
+    c = 1;
+  if (c > 4)
+    c = 4;
+  return (int)c;
+}
+
+int bk_parallel(size_t n, int threads, int (*fn)(void *ctx, size_t i),
+                void *ctx) {
+  if (threads < 1)
+    threads = 1;
+  if ((size_t)threads > n)
+    threads = (int)(n ? n : 1);
+  if (threads == 1) {
+    for (size_t i = 0; i < n; i++) {
+      int st = fn(ctx, i);
+      if (st != 0)
+        return st;
+    }
+    return 0;
+  }
+  pool p;
+  memset(&p, 0, sizeof p);
+  p.n = n;
+  p.fn = fn;
+  p.ctx = ctx;
+  p.status = calloc(n, sizeof *p.status);
+  pthread_t *tid = calloc((size_t)threads, sizeof *tid);
+  if (p.status == NULL || tid == NULL ||
+      pthread_mutex_init(&p.lock, NULL) != 0) {
+    free(p.status);
+    free(tid);
+    tf_cli_msg("out of memory");
+    return TF_EXIT_OUTPUT;
+  }
+  int started = 0;
+  for (int k = 0; k < threads; k++) {
+    if (pthread_create(&tid[k], NULL, worker, &p) != 0)
+      break;
+    started++;
+  }
+  if (started == 0)
+    worker(&p); /* no thread could start: do the work here */
+  for (int k = 0; k < started; k++)
+    pthread_join(tid[k], NULL);
+  pthread_mutex_destroy(&p.lock);
+  int st = 0;
+  for (size_t i = 0; i < n && st == 0; i++)
+    st = p.status[i];
+  free(p.status);
+  free(tid);
+  return st;
 }

@@ -52,6 +52,7 @@ typedef struct bk_input {
   int no_total;
   int have_as_of;
   int32_t as_of;
+  int threads; /* regions analysed at once */
 } bk_input;
 
 /* Option codes of the shared long options (above any short option). */
@@ -76,6 +77,7 @@ enum {
   BK_OPT_REGION,
   BK_OPT_NO_TOTAL,
   BK_OPT_AS_OF,
+  BK_OPT_THREADS,
   BK_OPT_LAST_
 };
 
@@ -100,6 +102,7 @@ enum {
       {"date-column", required_argument, NULL, BK_OPT_DATE_COLUMN},          \
       {"region", required_argument, NULL, 'r'},                              \
       {"no-total", no_argument, NULL, BK_OPT_NO_TOTAL},                      \
+      {"threads", required_argument, NULL, BK_OPT_THREADS},                  \
   {                                                                          \
     "as-of", required_argument, NULL, 'a'                                    \
   }
@@ -168,6 +171,15 @@ typedef struct bk_fit {
 int bk_fit_run(bk_fit *f, const twofold_cp_options *o, const bk_input *in,
                const bk_target *t);
 void bk_fit_free(bk_fit *f);
+
+/* Run fn(ctx, i) for i = 0..n-1 on up to `threads` threads (regions
+ * are independent; each fn call writes only its own slot, so the output
+ * does not depend on the number of threads).  Returns the first non-zero
+ * status in index order, or 0. */
+int bk_parallel(size_t n, int threads, int (*fn)(void *ctx, size_t i),
+                void *ctx);
+/* The default number of threads: processors online, 1..4. */
+int bk_default_threads(void);
 
 /* The standard normal distribution function and the two-sided quantile
  * z with P(|Z| <= z) = level. */

@@ -378,6 +378,18 @@ static int write_daily(const options *o, tf_writer *w, const bk_fit *f) {
 /* main                                                                */
 /* ------------------------------------------------------------------ */
 
+typedef struct job {
+  const twofold_cp_options *cpo;
+  const bk_input *in;
+  const bk_target *targets;
+  bk_fit *fits;
+} job;
+
+static int fit_one(void *ctx, size_t i) {
+  job *jb = ctx;
+  return bk_fit_run(&jb->fits[i], jb->cpo, jb->in, &jb->targets[i]);
+}
+
 static int run(const options *o, char **files, size_t nfiles) {
   twofold_cp_options *cpo = NULL;
   twofold_set *set = NULL;
@@ -402,9 +414,9 @@ static int run(const options *o, char **files, size_t nfiles) {
     st = TF_EXIT_OUTPUT;
     goto done;
   }
-  for (size_t i = 0; i < ntargets && st == TF_EXIT_OK; i++)
-    st = bk_fit_run(&fits[i], cpo, &o->in, &targets[i]);
-  if (st != TF_EXIT_OK)
+  job jb = {cpo, &o->in, targets, fits};
+  if ((st = bk_parallel(ntargets, o->in.threads, fit_one, &jb)) !=
+      TF_EXIT_OK)
     goto done;
 
   /* Only now, with every posterior computed, open the output. */
