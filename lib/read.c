@@ -27,9 +27,11 @@
 #include <fcntl.h>
 #include <limits.h>
 #include <math.h>
+#include <pthread.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 #include <unistd.h>
 #include <zlib.h>
 
@@ -360,7 +362,26 @@ static int ntab_add(ntab *t, const unsigned char *p, size_t n) {
 /* The byte source: memory or fd, plain or gzip                        */
 /* ------------------------------------------------------------------ */
 
+/* Decompression ahead of the parser, in a thread of its own (memory and
+ * regular files only, whose reads cannot block for ever): a ring of
+ * chunks filled by the thread and emptied by source_read(). */
+#define PIPE_CHUNKS 4
+#define PIPE_CHUNK (1u << 20)
+typedef struct gzpipe {
+  pthread_t thread;
+  pthread_mutex_t mu;
+  pthread_cond_t cv;
+  unsigned char *chunk[PIPE_CHUNKS];
+  size_t clen[PIPE_CHUNKS];
+  size_t head, tail; /* chunks consumed, chunks produced */
+  size_t off;        /* bytes consumed of chunk head */
+  int done;          /* the thread has finished, with status rc */
+  int rc;
+  int stop;          /* the reader asks the thread to finish */
+} gzpipe;
+
 typedef struct source {
+  gzpipe *pipe;
   const unsigned char *mem; /* memory input, or NULL */
   size_t memlen, mempos;
   int fd;                   /* fd input, or -1 */
@@ -499,6 +520,8 @@ static int raw_read(source *s, unsigned char *dst, size_t n, size_t *got) {
   return TWOFOLD_OK;
 }
 
+static void pipe_start(source *s);
+
 static int source_open(reader *rd) {
   source *s = &rd->src;
   unsigned char magic[2];
@@ -533,11 +556,15 @@ static int source_open(reader *rd) {
       s->zs.avail_in = (uInt)s->rawlen;
       s->rawlen = s->rawpos = 0;
     }
+    pipe_start(s);
   }
   return TWOFOLD_OK;
 }
 
+static void pipe_end(source *s);
+
 static void source_close(source *s) {
+  pipe_end(s);
   if (s->zinit)
     inflateEnd(&s->zs);
   s->zinit = 0;
@@ -601,6 +628,122 @@ static int gz_read(source *s, unsigned char *dst, size_t n, size_t *got) {
   return TWOFOLD_OK;
 }
 
+static void *pipe_main(void *arg) {
+  source *s = arg;
+  gzpipe *p = s->pipe;
+  for (;;) {
+    pthread_mutex_lock(&p->mu);
+    while (p->tail - p->head == PIPE_CHUNKS && !p->stop)
+      pthread_cond_wait(&p->cv, &p->mu);
+    int stop = p->stop;
+    size_t i = p->tail % PIPE_CHUNKS;
+    pthread_mutex_unlock(&p->mu);
+    if (stop)
+      break;
+    size_t got = 0;
+    int rc = TWOFOLD_OK;
+    if (p->chunk[i] == NULL && (p->chunk[i] = malloc(PIPE_CHUNK)) == NULL)
+      rc = src_msg(s, TWOFOLD_ENOMEM, "out of memory", NULL);
+    else
+      rc = gz_read(s, p->chunk[i], PIPE_CHUNK, &got);
+    pthread_mutex_lock(&p->mu);
+    p->clen[i] = got;
+    if (got)
+      p->tail++;
+    if (rc || got < PIPE_CHUNK) {
+      p->rc = rc;
+      p->done = 1;
+    }
+    int fin = p->done;
+    pthread_cond_broadcast(&p->cv);
+    pthread_mutex_unlock(&p->mu);
+    if (fin)
+      break;
+  }
+  return NULL;
+}
+
+/* As gz_read, from the ring. */
+static int pipe_read(source *s, unsigned char *dst, size_t n, size_t *got) {
+  gzpipe *p = s->pipe;
+  *got = 0;
+  while (*got < n) {
+    pthread_mutex_lock(&p->mu);
+    while (p->head == p->tail && !p->done)
+      pthread_cond_wait(&p->cv, &p->mu);
+    if (p->head == p->tail) {
+      int rc = p->rc;
+      pthread_mutex_unlock(&p->mu);
+      return rc;
+    }
+    size_t i = p->head % PIPE_CHUNKS, len = p->clen[i];
+    pthread_mutex_unlock(&p->mu);
+    size_t k = len - p->off;
+    if (k > n - *got)
+      k = n - *got;
+    memcpy(dst + *got, p->chunk[i] + p->off, k);
+    *got += k;
+    p->off += k;
+    if (p->off == len) {
+      pthread_mutex_lock(&p->mu);
+      p->head++;
+      p->off = 0;
+      pthread_cond_broadcast(&p->cv);
+      pthread_mutex_unlock(&p->mu);
+    }
+  }
+  return TWOFOLD_OK;
+}
+
+static void pipe_start(source *s) {
+  if (s->fd >= 0) {
+    struct stat st;
+    if (fstat(s->fd, &st) != 0 || !S_ISREG(st.st_mode))
+      return;
+  }
+  gzpipe *p = calloc(1, sizeof *p);
+  if (p == NULL)
+    return;
+  if (pthread_mutex_init(&p->mu, NULL) != 0) {
+    free(p);
+    return;
+  }
+  if (pthread_cond_init(&p->cv, NULL) != 0) {
+    pthread_mutex_destroy(&p->mu);
+    free(p);
+    return;
+  }
+  s->pipe = p;
+  if (pthread_create(&p->thread, NULL, pipe_main, s) != 0) {
+    s->pipe = NULL; /* decompress in the reader's thread instead */
+    pthread_cond_destroy(&p->cv);
+    pthread_mutex_destroy(&p->mu);
+    free(p);
+  }
+}
+
+static void pipe_end(source *s) {
+  gzpipe *p = s->pipe;
+  if (p == NULL)
+    return;
+  pthread_mutex_lock(&p->mu);
+  p->stop = 1;
+  pthread_cond_broadcast(&p->cv);
+  pthread_mutex_unlock(&p->mu);
+  pthread_join(p->thread, NULL);
+  for (size_t i = 0; i < PIPE_CHUNKS; i++)
+    free(p->chunk[i]);
+  pthread_cond_destroy(&p->cv);
+  pthread_mutex_destroy(&p->mu);
+  free(p);
+  s->pipe = NULL;
+}
+
+static int gz_any_read(source *s, unsigned char *dst, size_t n,
+                       size_t *got) {
+  return s->pipe ? pipe_read(s, dst, n, got) : gz_read(s, dst, n, got);
+}
+
 static int plain_read(source *s, unsigned char *dst, size_t n, size_t *got) {
   size_t k = 0;
   if (s->rawpos < s->rawlen) { /* bytes read while looking for gzip */
@@ -624,7 +767,8 @@ static int source_read(reader *rd, unsigned char *dst, size_t n,
   source *s = &rd->src;
   *got = 0;
   if (s->pend == 0) {
-    s->pend = s->gz ? gz_read(s, dst, n, got) : plain_read(s, dst, n, got);
+    s->pend =
+        s->gz ? gz_any_read(s, dst, n, got) : plain_read(s, dst, n, got);
     if (s->pend == 0 && *got < n)
       s->ended = 1;
   }
@@ -1530,7 +1674,7 @@ static int check_gzip_rest(reader *rd, int rc) {
   unsigned char tmp[16384];
   while (s->pend == 0) {
     size_t got;
-    s->pend = gz_read(s, tmp, sizeof tmp, &got);
+    s->pend = gz_any_read(s, tmp, sizeof tmp, &got);
     if (s->pend == 0 && got < sizeof tmp)
       return rc; /* the stream is sound: the data error stands */
   }

@@ -37,11 +37,13 @@ static int32_t day_of(const char *iso) {
 
 /* gzip-compress n bytes with zlib's deflate (gzip wrapper: windowBits
  * 15 + 16).  Caller frees. */
-static unsigned char *gzip_bytes(const void *src, size_t n, size_t *outn) {
+static unsigned char *gzip_level(const void *src, size_t n, size_t *outn,
+                                 int level) {
   z_stream z;
   memset(&z, 0, sizeof z);
   ck_assert_int_eq(
-      deflateInit2(&z, 6, Z_DEFLATED, 15 + 16, 8, Z_DEFAULT_STRATEGY), Z_OK);
+      deflateInit2(&z, level, Z_DEFLATED, 15 + 16, 8, Z_DEFAULT_STRATEGY),
+      Z_OK);
   size_t cap = deflateBound(&z, (uLong)n) + 64;
   unsigned char *out = malloc(cap);
   ck_assert_ptr_nonnull(out);
@@ -53,6 +55,10 @@ static unsigned char *gzip_bytes(const void *src, size_t n, size_t *outn) {
   *outn = z.total_out;
   deflateEnd(&z);
   return out;
+}
+
+static unsigned char *gzip_bytes(const void *src, size_t n, size_t *outn) {
+  return gzip_level(src, n, outn, 6);
 }
 
 /* ---------------------------------------------------------------------- */
@@ -739,6 +745,41 @@ START_TEST(gzip_corrupt) {
 }
 END_TEST
 
+static char *temp_file(const void *data, size_t n);
+
+/* Level 0 stores the text as it is (RFC 1951 3.2.4, stored blocks), so a
+ * changed byte there passes inflate and only the CRC-32 in the trailer
+ * (RFC 1952 2.3.1) shows it: the bad count it makes must not be reported
+ * as a bad count but as a damaged stream. */
+START_TEST(gzip_damage_seen_by_crc) {
+  size_t zn;
+  unsigned char *z = gzip_level(small_csv, strlen(small_csv), &zn, 0);
+  const char *row = "B,2020-01-01,3";
+  unsigned char *at = NULL;
+  for (size_t i = 0; i + strlen(row) <= zn && at == NULL; i++)
+    if (memcmp(z + i, row, strlen(row)) == 0)
+      at = z + i;
+  ck_assert_ptr_nonnull(at);
+  at[strlen(row) - 1] = 'x';
+  twofold_set *set = (twofold_set *)&set;
+  twofold_error err;
+  ck_assert_int_eq(twofold_read_memory(z, zn, NAME, NULL, &set, &err),
+                   TWOFOLD_EGZIP);
+  ck_assert_ptr_null(set);
+  ck_assert_int_eq(err.line, 4); /* where the damage showed */
+  ck_assert_int_eq(err.column, 0);
+  ck_assert_ptr_nonnull(strstr(err.text, NAME ":4: "));
+  ck_assert_ptr_nonnull(strstr(err.text, "corrupt gzip"));
+  /* the same through a regular file (read ahead in a second thread) */
+  char *p = temp_file(z, zn);
+  ck_assert_int_eq(twofold_read_file(p, NULL, &set, &err), TWOFOLD_EGZIP);
+  ck_assert_int_eq(err.line, 4);
+  unlink(p);
+  free(p);
+  free(z);
+}
+END_TEST
+
 static char *temp_file(const void *data, size_t n) {
   char *path = malloc(64);
   ck_assert_ptr_nonnull(path);
@@ -902,6 +943,7 @@ static Suite *read_suite(void) {
   tcase_add_test(tc, gzip_members);
   tcase_add_test(tc, gzip_truncated);
   tcase_add_test(tc, gzip_corrupt);
+  tcase_add_test(tc, gzip_damage_seen_by_crc);
   tcase_add_test(tc, file_plain_and_gzip);
   tcase_add_test(tc, pipe_fd);
   tcase_add_test(tc, large_input);
