@@ -85,7 +85,8 @@ def read_csv(path, column="cases"):
 
 
 def days_text(d):
-    """The heading's rounding of a number of days (twofold(1))."""
+    """The heading's rounding of a number of days: one decimal below 10,
+    whole days above (the chart's own choice; common practice, no source)."""
     return "%.1f" % d if d < 9.95 else "%.0f" % d
 
 

@@ -918,7 +918,7 @@ static void put_growth_panel(FILE *f, const layout *L, const region *g,
   }
   fputs("</g>\n", f);
   /* right: doubling above zero, halving below, at r = ln 2 / T */
-  static const double times[] = {3.5, 7, 14, 28, 56};
+  static const double times[] = {1, 2, 3.5, 7, 14, 28, 56, 112};
   fprintf(f,
           "<g class=\"axis axis-doubling\" font-size=\"%.1f\" fill=\"" C_INK
           "\">",
@@ -1060,7 +1060,10 @@ static void put_region(FILE *f, const tf_chart *c, const layout *L,
     date_text(d, sizeof d, g->first + (int32_t)cg->day);
     date_text(a, sizeof a, g->first + (int32_t)cg->from);
     date_text(b, sizeof b, g->first + (int32_t)cg->to);
-    fprintf(f, "latest change in growth: %s (%s to %s)", d, a, b);
+    if (cg->from == cg->to)
+      fprintf(f, "latest change in growth: %s", d);
+    else
+      fprintf(f, "latest change in growth: %s (%s to %s)", d, a, b);
   }
   fputs("</text>\n", f);
 
