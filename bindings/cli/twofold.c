@@ -10,6 +10,7 @@
  * The command only translates: options in, library calls, records out.
  */
 #include "cli.h"
+#include "chart.h" /* --svg */
 
 #include <errno.h>
 #include <getopt.h>
@@ -45,6 +46,7 @@ typedef struct options {
   int layout;
   const char *region_column;
   const char *date_column;
+  const char *svg; /* --svg FILE: chart.c */
   int have_gi;
   double gi_mean, gi_sd;
 } options;
@@ -85,6 +87,7 @@ static void usage(FILE *f) {
 "Output:\n"
 "  -f, --format=FORMAT        table, tsv, csv or json (default table)\n"
 "  -o, --output=FILE          write FILE whole or not at all\n"
+"      --svg=FILE             also draw the growth charts as SVG into FILE\n"
 "  -h, --help                 show this help and exit\n"
 "  -V, --version              show the version and exit\n"
 "\n"
@@ -103,7 +106,8 @@ enum {
   OPT_NO_TOTAL,
   OPT_LAYOUT,
   OPT_REGION_COLUMN,
-  OPT_DATE_COLUMN
+  OPT_DATE_COLUMN,
+  OPT_SVG
 };
 
 static const struct option long_options[] = {
@@ -125,6 +129,7 @@ static const struct option long_options[] = {
     {"layout", required_argument, NULL, OPT_LAYOUT},
     {"region-column", required_argument, NULL, OPT_REGION_COLUMN},
     {"date-column", required_argument, NULL, OPT_DATE_COLUMN},
+    {"svg", required_argument, NULL, OPT_SVG},
     {"format", required_argument, NULL, 'f'},
     {"output", required_argument, NULL, 'o'},
     {"help", no_argument, NULL, 'h'},
@@ -225,6 +230,9 @@ static int parse_args(int argc, char **argv, options *o) {
     case OPT_DATE_COLUMN:
       o->date_column = optarg;
       break;
+    case OPT_SVG:
+      o->svg = optarg;
+      break;
     case 'f':
       if ((o->format = tf_format_from_name(optarg)) < 0)
         return tf_cli_usage_error(
@@ -258,6 +266,8 @@ static int parse_args(int argc, char **argv, options *o) {
     return tf_cli_usage_error(
         "--summary describes the input: it takes no --every-day, "
         "--generation-interval or --offset");
+  if (o->summary && o->svg)
+    return tf_cli_usage_error("--summary takes no --svg");
   return -1;
 }
 
@@ -765,6 +775,19 @@ static int run(const options *o, char **files, size_t nfiles) {
       st = rc == TWOFOLD_ENOMEM ? TF_EXIT_OUTPUT : TF_EXIT_USAGE;
       goto done;
     }
+  }
+
+  /* The chart (chart.c), written whole before the records. */
+  if (o->svg != NULL) {
+    tf_chart *ch = tf_chart_new(wk.fo, (size_t)o->window, o->level,
+                                o->have_as_of, o->as_of);
+    for (size_t i = 0; ch != NULL && i < ntargets; i++)
+      tf_chart_add(ch, targets[i].s, targets[i].col, targets[i].ocol,
+                   targets[i].s == total);
+    st = ch != NULL ? tf_chart_write(ch, o->svg) : TF_EXIT_OUTPUT;
+    tf_chart_free(ch);
+    if (st != TF_EXIT_OK)
+      goto done;
   }
 
   /* Only now, with the input read, open the output. */
