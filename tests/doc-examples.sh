@@ -22,5 +22,5 @@ export R_LIBS="$tmp/lib" R="$R_BIN"
 export TWOFOLD_LIBRARY="$top_builddir/lib/.libs/libtwofold.so"
 export PYTHONPATH="$top_srcdir/bindings/python${PYTHONPATH:+:$PYTHONPATH}"
 export PYTHONDONTWRITEBYTECODE=1
-exec /usr/bin/python3 "$top_srcdir/tests/doc-examples.py" \
+exec /usr/bin/python3 "$top_srcdir/tests/doc-examples-runner.py" \
   --cwd "$top_srcdir" --require python,r "$doc"

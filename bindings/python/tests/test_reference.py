@@ -43,10 +43,13 @@ def design(n, present):
 
 
 def statsmodels_glm(y, family, scale=None):
+    # With an estimated (Pearson) scale the interval uses Student t on the
+    # residual degrees of freedom, as twofold's quasi-Poisson Wald interval
+    # does (statsmodels: use_t=True).
     present = ~np.isnan(y)
     X = design(len(y), present)
     res = sm.GLM(y[present], X, family=family).fit(
-        scale=scale, tol=1e-13, maxiter=200)
+        scale=scale, tol=1e-13, maxiter=200, use_t=scale is not None)
     lo, hi = res.conf_int(alpha=0.05)[1]
     return res.params[1], res.bse[1], lo, hi
 

@@ -3,7 +3,7 @@
 """Run the example code blocks of a Markdown file, so documented examples
 cannot rot.
 
-    doc-examples.py [--cwd DIR] [--require LANG,...] FILE
+    doc-examples-runner.py [--cwd DIR] [--require LANG,...] FILE
 
 A block runs when the line before its opening fence (blank lines aside) is
 a marker comment naming its language:
