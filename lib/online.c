@@ -134,6 +134,8 @@ static void sor(twofold_online *on, size_t m) {
     if (srt[kk] < alpha)
       break;
     tail -= srt[kk];
+    if (kk + 1 == m) /* m weights dominate: keep them, drop the rest */
+      alpha = srt[kk];
   }
   double U = alpha * tf_rng_unif(&on->rng);
   size_t out = 0;
@@ -242,6 +244,8 @@ static int add_day(twofold_online *on, double y) {
   on->t = t + 1;
   if (on->nc > on->maxc)
     sor(on, on->maxc / 2 > 1 ? on->maxc / 2 : 1);
+  while (on->nc > on->maxc) /* SOR keeps about m; never more than the cap */
+    sor(on, on->maxc / 2 > 1 ? on->maxc / 2 : 1);
   return 0;
 }
 
@@ -272,7 +276,7 @@ int twofold_online_new(const twofold_cp_options *o, const double *history,
   on->opt = opt;
   on->maxc = max_candidates;
   tf_rng_seed(&on->rng, seed);
-  size_t mc = max_candidates + 1;
+  size_t mc = 2 * max_candidates + 2; /* room for SOR's rounding */
   on->cs = malloc(mc * sizeof(size_t));
   on->cw = malloc(mc * sizeof(double));
   on->clp = malloc(mc * sizeof(double));
