@@ -67,7 +67,7 @@ def pois_fit(y, X, off, scale=None):
 
 def nb_glm(y, X, off, alpha):
     return sm.GLM(y, X, family=sm.families.NegativeBinomial(alpha=alpha),
-                  offset=off).fit(tol=1e-13, maxiter=500)
+                  offset=off).fit(tol=1e-11, maxiter=100)
 
 
 def nb_fit(y, X, off):
