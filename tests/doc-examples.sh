@@ -4,10 +4,10 @@
 # "<!-- example: python -->" / "<!-- example: r -->") against this build
 # tree: the Python package from the source tree, the R package installed
 # into a scratch library.  DOC_EXAMPLES_FILE names the Markdown file
-# (default bindings/README-sections.md).
+# (default README.md).
 set -u
 : "${top_srcdir:?}" "${top_builddir:?}"
-doc=${DOC_EXAMPLES_FILE:-$top_srcdir/bindings/README-sections.md}
+doc=${DOC_EXAMPLES_FILE:-$top_srcdir/README.md}
 [ -f "$doc" ] || { echo "FAIL: $doc not found" >&2; exit 1; }
 /usr/bin/python3 -c 'import numpy, pandas' 2>/dev/null || {
   echo "FAIL: /usr/bin/python3 lacks numpy or pandas (python3-numpy, python3-pandas)" >&2; exit 1; }

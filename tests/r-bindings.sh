@@ -4,7 +4,7 @@
 # library.  The check runs the package's tests (bindings/R/tests: growth
 # rate and Wald interval against stats::glm and MASS::glm.nb) and its
 # examples.  Fails on any ERROR or WARNING; NOTEs are printed (see
-# bindings/README-sections.md for the expected ones).  MASS (r-cran-mass)
+# README.md for the expected ones).  MASS (r-cran-mass)
 # missing is a failure.
 set -u
 : "${top_srcdir:?}" "${top_builddir:?}"
