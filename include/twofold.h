@@ -421,10 +421,17 @@ TWOFOLD_API int twofold_fit_options_set_min_events(twofold_fit_options *o,
                                                    double events);
 TWOFOLD_API double twofold_fit_options_get_min_events(
     const twofold_fit_options *o);
+/* Iteration limit (1..100000; default 50) for each Newton loop. */
 TWOFOLD_API int twofold_fit_options_set_max_iterations(
     twofold_fit_options *o, int iterations);
+TWOFOLD_API int twofold_fit_options_get_max_iterations(
+    const twofold_fit_options *o);
+/* Convergence tolerance in (0, 1) (default 1e-10): Newton stops when the
+ * Newton decrement g' H^-1 g (log-likelihood units) falls below it. */
 TWOFOLD_API int twofold_fit_options_set_tolerance(twofold_fit_options *o,
                                                   double tolerance);
+TWOFOLD_API double twofold_fit_options_get_tolerance(
+    const twofold_fit_options *o);
 
 /* Flags describing a successful fit (bit mask). */
 #define TWOFOLD_FIT_MISSING_DAYS 0x1u  /* some days in the window missing  */
@@ -470,6 +477,9 @@ TWOFOLD_API double twofold_fit_weekday_effect(const twofold_fit *fit,
 /* NB theta (INFINITY for Poisson models) and the Pearson dispersion
  * X^2/(n-p). */
 TWOFOLD_API double twofold_fit_theta(const twofold_fit *fit);
+/* NB: theta from the Cox-Reid adjusted profile likelihood, the one the
+ * small-sample interval uses (NaN for Poisson models). */
+TWOFOLD_API double twofold_fit_theta_adjusted(const twofold_fit *fit);
 TWOFOLD_API double twofold_fit_dispersion(const twofold_fit *fit);
 TWOFOLD_API double twofold_fit_loglik(const twofold_fit *fit);
 TWOFOLD_API double twofold_fit_deviance(const twofold_fit *fit);
@@ -677,6 +687,14 @@ TWOFOLD_API int twofold_cp_options_set_grid(twofold_cp_options *o,
                                             int points);
 TWOFOLD_API int twofold_cp_options_get_grid(const twofold_cp_options *o);
 
+/* Reporting artefacts (1, the default; 0 off): before the analysis, a day
+ * further than 3.5 robust standard deviations from the median of the 14
+ * days around it (Hampel identifier: a backlog dump) and a zero where that
+ * median is at least 10 (an unreported day) are treated as missing days.
+ * twofold_changes_cleaned() counts them. */
+TWOFOLD_API int twofold_cp_options_set_clean(twofold_cp_options *o, int on);
+TWOFOLD_API int twofold_cp_options_get_clean(const twofold_cp_options *o);
+
 /* A changepoint posterior for one series, reusable across runs.  Caller
  * frees. */
 typedef struct twofold_changes twofold_changes;
@@ -708,6 +726,8 @@ TWOFOLD_API int twofold_changes_kind(const twofold_changes *ch);
 TWOFOLD_API double twofold_changes_dispersion(const twofold_changes *ch);
 TWOFOLD_API double twofold_changes_weekday_effect(const twofold_changes *ch,
                                                   int weekday);
+/* Days set missing as reporting artefacts (twofold_cp_options_set_clean). */
+TWOFOLD_API size_t twofold_changes_cleaned(const twofold_changes *ch);
 /* Log evidence log p(y) of the model (with phi > 1 that of the tempered
  * likelihood, which is not a probability). */
 TWOFOLD_API double twofold_changes_log_evidence(const twofold_changes *ch);
@@ -797,7 +817,9 @@ TWOFOLD_API int twofold_changes_length_prior(const twofold_changes *ch,
  * is fed to the filter; first_weekday is the ISO weekday of the first day
  * (of the history, or of the first added day).  At most max_candidates
  * (>= 2) candidate last changes are kept, reduced by stratified optimal
- * resampling seeded by seed.  o may be NULL.  Caller frees. */
+ * resampling seeded by seed.  o may be NULL (defaults, but JUMP
+ * segments); KINK options give TWOFOLD_EINVAL.  Artefact cleaning is not
+ * applied online (it needs days on both sides).  Caller frees. */
 typedef struct twofold_online twofold_online;
 
 TWOFOLD_API int twofold_online_new(const twofold_cp_options *o,

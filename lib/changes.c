@@ -44,6 +44,7 @@ void tf_cp_options_defaults(struct twofold_cp_options *o) {
   o->max_changes = 20;
   o->level = 0.95;
   o->grid = 16;
+  o->clean = 1;
 }
 
 static const char *kind_names[] = {"kink", "jump", "level"};
@@ -293,6 +294,66 @@ int twofold_cp_options_set_grid(twofold_cp_options *o, int points) {
 }
 int twofold_cp_options_get_grid(const twofold_cp_options *o) {
   return o ? o->grid : 0;
+}
+
+int twofold_cp_options_set_clean(twofold_cp_options *o, int on) {
+  OPT_NULL_CHECK(o);
+  if (on != 0 && on != 1)
+    return tf_msg_set(o->msg, TWOFOLD_EINVAL,
+                      "artefact switch %d is neither 0 nor 1", on);
+  o->clean = on;
+  return 0;
+}
+int twofold_cp_options_get_clean(const twofold_cp_options *o) {
+  return o ? o->clean : 0;
+}
+
+/* Hampel (1974, JASA 69:383-393) identifier on a centred window of 15
+ * days (the day itself left out): a day more than 3.5 robust standard
+ * deviations from the window median, the robust sd being
+ * max(1.4826 MAD, sqrt(median + 1)) so that Poisson noise alone is not
+ * flagged, is a reporting artefact (backlog dump); so is a zero where the
+ * median is at least 10 (an unreported day: P(0) < e^-10 under Poisson).
+ * Both become missing days. */
+static int cmp_double(const void *a, const void *b) {
+  double x = *(const double *)a, y = *(const double *)b;
+  return (x > y) - (x < y);
+}
+
+size_t tf_cp_clean(double *y, size_t n) {
+  enum { W = 7 };
+  double win[2 * W], dev[2 * W];
+  unsigned char *flag = calloc(n ? n : 1, 1);
+  if (!flag)
+    return 0;
+  for (size_t t = 0; t < n; t++) {
+    if (tf_isnan(y[t]))
+      continue;
+    size_t a = t > W ? t - W : 0, b = t + W < n ? t + W : n - 1;
+    int m = 0;
+    for (size_t u = a; u <= b; u++)
+      if (u != t && !tf_isnan(y[u]))
+        win[m++] = y[u];
+    if (m < 6)
+      continue;
+    qsort(win, (size_t)m, sizeof(double), cmp_double);
+    double med = m % 2 ? win[m / 2] : 0.5 * (win[m / 2 - 1] + win[m / 2]);
+    for (int i = 0; i < m; i++)
+      dev[i] = fabs(win[i] - med);
+    qsort(dev, (size_t)m, sizeof(double), cmp_double);
+    double mad = m % 2 ? dev[m / 2] : 0.5 * (dev[m / 2 - 1] + dev[m / 2]);
+    double sd = fmax(1.4826 * mad, sqrt(med + 1));
+    if (fabs(y[t] - med) > 3.5 * sd || (y[t] == 0 && med >= 10))
+      flag[t] = 1;
+  }
+  size_t c = 0;
+  for (size_t t = 0; t < n; t++)
+    if (flag[t]) {
+      y[t] = NAN;
+      c++;
+    }
+  free(flag);
+  return c;
 }
 
 /* ---- the posterior object ------------------------------------------------ */
@@ -681,7 +742,25 @@ int twofold_changes_run(twofold_changes *ch, const twofold_cp_options *o,
     return fail(ch, TWOFOLD_ERANGE);
   }
   ch->n = n;
-  rc = tf_cp_prepare(&ch->d, &ch->opt, y, n, first_weekday);
+  double *yc = malloc(n * sizeof(double));
+  if (!yc)
+    return fail(ch, TWOFOLD_ENOMEM);
+  memcpy(yc, y, n * sizeof(double));
+  size_t ncl = ch->opt.clean ? tf_cp_clean(yc, n) : 0;
+  present = 0;
+  for (size_t i = 0; i < n; i++)
+    present += !tf_isnan(yc[i]);
+  if (present < 2) {
+    free(yc);
+    tf_msg_set(ch->msg, TWOFOLD_ENODATA,
+               "%zu of %zu days have data after setting reporting "
+               "artefacts missing; at least 2 are needed",
+               present, n);
+    return fail(ch, TWOFOLD_ENODATA);
+  }
+  rc = tf_cp_prepare(&ch->d, &ch->opt, yc, n, first_weekday);
+  free(yc);
+  ch->ncleaned = ncl;
   if (rc)
     return fail(ch, rc);
   rc = tf_lenprior_init(&ch->lp, n, ch->opt.min_seg, ch->opt.shape,
@@ -737,6 +816,10 @@ double twofold_changes_weekday_effect(const twofold_changes *ch,
     return NAN;
   return ch->d.delta[weekday - 1];
 }
+size_t twofold_changes_cleaned(const twofold_changes *ch) {
+  return ch && ch->ok ? ch->ncleaned : 0;
+}
+
 double twofold_changes_log_evidence(const twofold_changes *ch) {
   if (!ch || !ch->ok)
     return NAN;

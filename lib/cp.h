@@ -23,6 +23,7 @@ struct twofold_cp_options {
   int max_changes;
   double level;
   int grid;
+  int clean;
   char msg[TF_ERRMSG_SIZE];
 };
 
@@ -115,6 +116,10 @@ void tf_rng_seed(tf_rng *r, uint64_t seed);
 double tf_rng_unif(tf_rng *r);  /* in (0, 1) */
 double tf_rng_norm(tf_rng *r);
 
+/* Reporting artefacts set missing in y (copy) as twofold_cp_options_set_clean
+ * documents; returns the number of days set missing. */
+size_t tf_cp_clean(double *y, size_t n);
+
 /* Validation shared by the offline run and the online filter. */
 int tf_cp_check_counts(const double *y, size_t n, char *msg);
 
@@ -143,6 +148,7 @@ struct twofold_changes {
   size_t nmap;
   size_t *mapstart;          /* nmap + 1 segment starts */
   double *mapb, *mapbsd, *maplvl; /* per MAP segment */
+  size_t ncleaned;
   /* KINK */
   struct tf_kink *kink;
 };

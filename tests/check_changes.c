@@ -3,6 +3,7 @@
  * Unit and reference tests of the changepoint module.  Outside references
  * are named beside each check.
  */
+#define _POSIX_C_SOURCE 200809L
 #include "twofold.h"
 
 #include <check.h>
@@ -11,6 +12,7 @@
 #include <gsl/gsl_randist.h>
 #include <gsl/gsl_rng.h>
 #include <gsl/gsl_sf_gamma.h>
+#include <gsl/gsl_sf_psi.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -367,6 +369,366 @@ START_TEST(pruning_error) {
 }
 END_TEST
 
+
+/* ---- KINK against enumeration and fine quadrature ------------------------
+ * The exact target: for every segmentation, the integral over the knot
+ * levels of prod(segment Poisson likelihood x N(b) density) x N(first knot),
+ * by the trapezoid rule on a fixed fine grid (241 points over +-3 around
+ * the log mean count), iterated along the chain of knots (each knot is
+ * shared by two segments only).  The library's pilot-centred lattice must
+ * agree to the printed error. */
+#define KM 241
+static double kink_seg_ll(const double *y, size_t s, size_t e, double x0,
+                          double x1) {
+  double L = (double)(e - s + 1), b = (x1 - x0) / L, ll = 0;
+  for (size_t t = s; t <= e; t++) {
+    double eta = x0 + b * (double)(t - s + 1);
+    ll += y[t] * eta - exp(eta) - lgamma(y[t] + 1);
+  }
+  double z = b / 0.1;
+  return ll - 0.5 * z * z - log(0.1) - 0.5 * log(2 * M_PI) - log(L);
+}
+
+START_TEST(kink_against_quadrature) {
+  enum { N = 9 };
+  double y[N] = {12, 15, 14, 19, 25, 22, 20, 15, 12};
+  double alpha = 2, beta = 2.0 / 17;
+  twofold_cp_options *o;
+  twofold_cp_options_new(&o);
+  twofold_cp_options_set_kind(o, TWOFOLD_CP_KINK);
+  twofold_cp_options_set_weekday(o, 0);
+  twofold_cp_options_set_dispersion(o, 1);
+  twofold_cp_options_set_level_prior(o, alpha, beta);
+  twofold_cp_options_set_change_prob(o, 0.2);
+  twofold_cp_options_set_min_segment(o, 2);
+  twofold_cp_options_set_length_shape(o, 1);
+  twofold_cp_options_set_prune(o, 0);
+  twofold_cp_options_set_max_changes(o, 8);
+  twofold_changes *ch;
+  twofold_changes_new(&ch);
+  ck_assert_int_eq(twofold_changes_run(ch, o, y, N, 1), 0);
+  /* fine grid */
+  double xs[KM], lo = log(17) - 3, hx = 6.0 / (KM - 1);
+  for (int i = 0; i < KM; i++)
+    xs[i] = lo + hx * i;
+  double mu0 = gsl_sf_psi(alpha) - log(beta), sd0 = sqrt(gsl_sf_psi_1(alpha));
+  static double M[N][N][KM][KM];
+  for (size_t s = 0; s < N; s++)
+    for (size_t e = s; e < N; e++)
+      for (int i = 0; i < KM; i++)
+        for (int j = 0; j < KM; j++)
+          M[s][e][i][j] = kink_seg_ll(y, s, e, xs[i], xs[j]);
+  double lg[N + 1], lS[N + 1], lg0[N + 1], lS0[N + 1];
+  for (size_t l = 1; l <= N; l++) {
+    twofold_changes_length_prior(ch, l, 0, &lg[l], &lS[l]);
+    twofold_changes_length_prior(ch, l, 1, &lg0[l], &lS0[l]);
+  }
+  size_t ns = (size_t)1 << (N - 1);
+  double lw[1 << (N - 1)], Z = -INFINITY;
+  for (size_t m = 0; m < ns; m++) {
+    double v[KM], nv[KM], w = 0;
+    for (int i = 0; i < KM; i++) {
+      double z = (xs[i] - mu0) / sd0;
+      v[i] = -0.5 * z * z - log(sd0) - 0.5 * log(2 * M_PI) + log(hx) -
+             (i == 0 || i == KM - 1 ? log(2) : 0);
+    }
+    size_t s = 0;
+    for (size_t e = 0; e < N; e++) {
+      int end = e + 1 == N || ((m >> e) & 1);
+      if (!end)
+        continue;
+      size_t L = e - s + 1;
+      w += e + 1 == N ? (s == 0 ? lS0[L] : lS[L]) : (s == 0 ? lg0[L] : lg[L]);
+      for (int j = 0; j < KM; j++) {
+        double acc = -INFINITY;
+        for (int i = 0; i < KM; i++)
+          acc = lse2(acc, v[i] + M[s][e][i][j]);
+        nv[j] = acc + log(hx) - (j == 0 || j == KM - 1 ? log(2) : 0);
+      }
+      memcpy(v, nv, sizeof v);
+      s = e + 1;
+    }
+    double t = -INFINITY;
+    for (int i = 0; i < KM; i++)
+      t = lse2(t, v[i]);
+    lw[m] = w + t;
+    Z = lse2(Z, lw[m]);
+  }
+  double pch[N] = {0}, pk[N] = {0};
+  for (size_t m = 0; m < ns; m++) {
+    double p = exp(lw[m] - Z);
+    int k = 0;
+    for (size_t g = 0; g + 1 < N; g++)
+      if ((m >> g) & 1) {
+        pch[g + 1] += p;
+        k++;
+      }
+    pk[k] += p;
+  }
+  double p[N], q[9];
+  twofold_changes_p_change(ch, p);
+  twofold_changes_count_prob(ch, q, 9, NULL);
+  double dp = 0, dk = 0;
+  for (size_t i = 0; i < N; i++) {
+    dp = fmax(dp, fabs(p[i] - pch[i]));
+    dk = fmax(dk, fabs(q[i] - pk[i]));
+  }
+  double dz = fabs(twofold_changes_log_evidence(ch) - Z);
+  printf("kink grid (16 points) vs enumeration + quadrature, n=%d: max "
+         "|dp| %.2e, max |dP(K)| %.2e, |dlogZ| %.2e\n",
+         N, dp, dk, dz);
+  fflush(stdout);
+  ck_assert_double_lt(dp, 1e-3);
+  ck_assert_double_lt(dk, 1e-3);
+  ck_assert_double_lt(dz, 1e-3);
+  /* finer grid: the error must shrink */
+  twofold_cp_options_set_grid(o, 48);
+  ck_assert_int_eq(twofold_changes_run(ch, o, y, N, 1), 0);
+  twofold_changes_p_change(ch, p);
+  double dp2 = 0;
+  for (size_t i = 0; i < N; i++)
+    dp2 = fmax(dp2, fabs(p[i] - pch[i]));
+  double dz2 = fabs(twofold_changes_log_evidence(ch) - Z);
+  printf("kink grid (48 points): max |dp| %.2e, |dlogZ| %.2e\n", dp2, dz2);
+  fflush(stdout);
+  ck_assert_double_lt(dp2, 1e-4);
+  ck_assert_double_lt(dz2, 1e-4);
+  twofold_changes_free(ch);
+  twofold_cp_options_free(o);
+}
+END_TEST
+
+/* ---- online filter -------------------------------------------------------
+ * Without resampling the filter is exact: the sum of its one-step log
+ * predictives is log p(y), the offline evidence (Fearnhead & Liu 2007,
+ * sec. 2; METHODS A5), and P(a new regime within the last k days) equals
+ * the enumeration over segmentations. */
+START_TEST(online_exact_without_resampling) {
+  double y[14];
+  sim_series(y, 14, 31, 4, 15, 8, 0, 0);
+  y[5] = NAN;
+  for (int kind = 1; kind <= 2; kind++) {
+    twofold_cp_options *o;
+    twofold_cp_options_new(&o);
+    twofold_cp_options_set_kind(o, kind);
+    twofold_cp_options_set_weekday(o, 0);
+    twofold_cp_options_set_dispersion(o, 1);
+    twofold_cp_options_set_level_prior(o, 1, 0.1);
+    twofold_cp_options_set_min_segment(o, 2);
+    twofold_cp_options_set_change_prob(o, 0.15);
+    twofold_changes *ch;
+    twofold_changes_new(&ch);
+    ck_assert_int_eq(twofold_changes_run(ch, o, y, 14, 2), 0);
+    twofold_online *on;
+    ck_assert_int_eq(twofold_online_new(o, NULL, 0, 2, 100, 1, &on), 0);
+    double sum = 0;
+    for (size_t t = 0; t < 14; t++) {
+      ck_assert_int_eq(twofold_online_add(on, y[t]), 0);
+      sum += twofold_online_log_predictive(on);
+    }
+    ck_assert_double_eq_tol(sum, twofold_changes_log_evidence(ch), 1e-9);
+    /* enumeration of P(last segment starts after day 14-k) */
+    double lml[14][14];
+    for (size_t s = 0; s < 14; s++)
+      for (size_t e = s; e < 14; e++)
+        twofold_changes_segment_logml(ch, s, e, &lml[s][e]);
+    double Z = -INFINITY, lastw[14];
+    for (int i = 0; i < 14; i++)
+      lastw[i] = -INFINITY;
+    for (size_t m = 0; m < (1u << 13); m++) {
+      double w = 0;
+      size_t s = 0;
+      for (size_t e = 0; e < 14; e++) {
+        if (!(e == 13 || ((m >> e) & 1)))
+          continue;
+        double lp, ls;
+        twofold_changes_length_prior(ch, e - s + 1, s == 0, &lp, &ls);
+        w += lml[s][e] + (e == 13 ? ls : lp);
+        if (e == 13)
+          lastw[s] = lse2(lastw[s], w);
+        s = e + 1;
+      }
+      Z = lse2(Z, w);
+    }
+    for (size_t kk = 1; kk <= 6; kk++) {
+      double ref = 0, got;
+      for (size_t s = 14 - kk; s < 14; s++)
+        ref += exp(lastw[s] - Z);
+      ck_assert_int_eq(twofold_online_p_recent(on, kk, &got), 0);
+      ck_assert_double_eq_tol(got, ref, 1e-9);
+    }
+    double m, lo, hi;
+    ck_assert_int_eq(twofold_online_growth(on, &m, &lo, &hi), 0);
+    ck_assert(lo <= m && m <= hi);
+    twofold_online_free(on);
+    twofold_changes_free(ch);
+    twofold_cp_options_free(o);
+  }
+}
+END_TEST
+
+/* With few candidates (stratified optimal resampling) the evidence stays
+ * close to the exact one; printed, held to a loose bound. */
+START_TEST(online_resampling) {
+  size_t n = 300;
+  double *y = malloc(n * sizeof(double));
+  sim_series(y, n, 41, 30, 80, 150, 0.01, -0.02);
+  twofold_cp_options *o;
+  twofold_cp_options_new(&o);
+  twofold_cp_options_set_kind(o, TWOFOLD_CP_JUMP);
+  twofold_cp_options_set_dispersion(o, 1);
+  twofold_cp_options_set_weekday(o, 0);
+  twofold_cp_options_set_level_prior(o, 1, 0.02);
+  twofold_changes *ch;
+  twofold_changes_new(&ch);
+  ck_assert_int_eq(twofold_changes_run(ch, o, y, n, 1), 0);
+  double exact = twofold_changes_log_evidence(ch);
+  size_t caps[] = {20, 50};
+  for (int c = 0; c < 2; c++) {
+    twofold_online *on;
+    ck_assert_int_eq(twofold_online_new(o, NULL, 0, 1, caps[c], 7, &on), 0);
+    double sum = 0;
+    for (size_t t = 0; t < n; t++) {
+      ck_assert_int_eq(twofold_online_add(on, y[t]), 0);
+      sum += twofold_online_log_predictive(on);
+      ck_assert_uint_le(twofold_online_candidates(on), caps[c]);
+    }
+    printf("online, %zu candidates: log evidence error %.2e\n", caps[c],
+           sum - exact);
+    ck_assert_double_lt(fabs(sum - exact), 0.5);
+    double p;
+    ck_assert_int_eq(twofold_online_p_recent(on, 7, &p), 0);
+    ck_assert(p >= 0 && p <= 1);
+    twofold_online_free(on);
+  }
+  twofold_changes_free(ch);
+  twofold_cp_options_free(o);
+  free(y);
+}
+END_TEST
+
+START_TEST(online_errors) {
+  twofold_online *on;
+  ck_assert_int_eq(twofold_online_new(NULL, NULL, 0, 1, 10, 1, NULL),
+                   TWOFOLD_EINVAL);
+  ck_assert_int_eq(twofold_online_new(NULL, NULL, 0, 0, 10, 1, &on),
+                   TWOFOLD_EINVAL);
+  ck_assert_int_eq(twofold_online_new(NULL, NULL, 0, 1, 1, 1, &on),
+                   TWOFOLD_EINVAL);
+  ck_assert_int_eq(twofold_online_new(NULL, NULL, 5, 1, 10, 1, &on),
+                   TWOFOLD_EINVAL);
+  double bad[3] = {1, -2, 3};
+  ck_assert_int_eq(twofold_online_new(NULL, bad, 3, 1, 10, 1, &on),
+                   TWOFOLD_ECOUNT);
+  twofold_cp_options *o;
+  twofold_cp_options_new(&o);
+  ck_assert_int_eq(twofold_online_new(o, NULL, 0, 1, 10, 1, &on),
+                   TWOFOLD_EINVAL); /* KINK has no online filter */
+  twofold_cp_options_free(o);
+  ck_assert_int_eq(twofold_online_new(NULL, NULL, 0, 1, 10, 1, &on), 0);
+  double p;
+  ck_assert_int_eq(twofold_online_p_recent(on, 1, &p), TWOFOLD_ENODATA);
+  ck_assert_int_eq(twofold_online_growth(on, &p, NULL, NULL),
+                   TWOFOLD_ENODATA);
+  ck_assert(isnan(twofold_online_log_predictive(on)));
+  ck_assert_int_eq(twofold_online_add(on, 1.5), TWOFOLD_ECOUNT);
+  ck_assert(strstr(twofold_online_errmsg(on), "count") != NULL);
+  ck_assert_int_eq(twofold_online_add(NULL, 1), TWOFOLD_EINVAL);
+  ck_assert_int_eq(twofold_online_add(on, 3), 0);
+  ck_assert_int_eq(twofold_online_p_recent(on, 0, &p), TWOFOLD_EINVAL);
+  ck_assert_int_eq(twofold_online_p_recent(on, 1, NULL), TWOFOLD_EINVAL);
+  ck_assert_uint_eq(twofold_online_days(on), 1);
+  ck_assert_uint_eq(twofold_online_days(NULL), 0);
+  twofold_online_free(on);
+}
+END_TEST
+
+/* ---- British coal-mining disasters -----------------------------------------
+ * Annual counts 1851-1962 derived live from R's boot::coal (Jarrett 1979,
+ * Biometrika 66:191-193; 191 disasters).  Single change in a constant
+ * rate: posterior mode of the last high-rate year at 1890 or 1891 (Carlin,
+ * Gelfand & Smith 1992, Applied Statistics 41:389-405; Raftery & Akman
+ * 1986, Biometrika 73:85-89); rates about 3.1 and 0.9 per year. */
+START_TEST(coal_mining) {
+  const char *rs = getenv("RSCRIPT");
+  if (!rs || !*rs)
+    rs = "Rscript";
+  char cmd[1024];
+  snprintf(cmd, sizeof cmd,
+           "'%s' -e 'suppressMessages(library(boot)); "
+           "cat(tabulate(floor(coal$date) - 1850, nbins = 112))' 2>&1",
+           rs);
+  FILE *f = popen(cmd, "r");
+  ck_assert_msg(f != NULL, "FAIL: cannot run Rscript (%s)", rs);
+  double y[112];
+  size_t n = 0;
+  double v, tot = 0;
+  while (n < 112 && fscanf(f, "%lf", &v) == 1) {
+    y[n++] = v;
+    tot += v;
+  }
+  int st = pclose(f);
+  ck_assert_msg(st == 0 && n == 112,
+                "FAIL: Rscript with the boot package is required (Debian "
+                "r-base-core, r-cran-boot); got %zu values, status %d",
+                n, st);
+  ck_assert_double_eq(tot, 191);
+  twofold_cp_options *o;
+  twofold_cp_options_new(&o);
+  twofold_cp_options_set_kind(o, TWOFOLD_CP_LEVEL);
+  twofold_cp_options_set_weekday(o, 0);
+  twofold_cp_options_set_dispersion(o, 1);
+  twofold_cp_options_set_min_segment(o, 1);
+  twofold_cp_options_set_length_shape(o, 1);
+  twofold_cp_options_set_change_prob(o, 1.0 / 112);
+  twofold_cp_options_set_clean(o, 0); /* reference data: no artefacts */
+  twofold_changes *ch;
+  twofold_changes_new(&ch);
+  ck_assert_int_eq(twofold_changes_run(ch, o, y, 112, 1), 0);
+  /* single change: P(tau | K = 1, y) from the segment marginals */
+  int best = -1;
+  double bw = -INFINITY;
+  for (size_t tau = 0; tau + 1 < 112; tau++) {
+    double a, b;
+    twofold_changes_segment_logml(ch, 0, tau, &a);
+    twofold_changes_segment_logml(ch, tau + 1, 111, &b);
+    if (a + b > bw) {
+      bw = a + b;
+      best = (int)tau;
+    }
+  }
+  printf("coal: single-change mode, last high-rate year %d\n", 1851 + best);
+  fflush(stdout);
+  ck_assert(1851 + best == 1890 || 1851 + best == 1891);
+  /* the recursions: the change falls in 1886..1896 */
+  double p[112], near = 0;
+  twofold_changes_p_change(ch, p);
+  for (size_t i = 1886 - 1851; i <= 1896 - 1851; i++)
+    near += p[i];
+  double pk[3];
+  twofold_changes_count_prob(ch, pk, 3, NULL);
+  printf("coal: P(a change in 1886-1896) %.3f, P(K=1) %.3f, P(K=2) %.3f, "
+         "MAP changes %zu\n",
+         near, pk[1], pk[2], twofold_changes_map_count(ch));
+  fflush(stdout);
+  ck_assert_double_gt(near, 0.9);
+  ck_assert_uint_ge(twofold_changes_map_count(ch), 1);
+  size_t day, from, to;
+  double prob, l0, l1;
+  twofold_changes_map_change(ch, 0, &day, &from, &to, &prob);
+  twofold_changes_map_segment(ch, 0, NULL, NULL, NULL, NULL, NULL, &l0);
+  twofold_changes_map_segment(ch, 1, NULL, NULL, NULL, NULL, NULL, &l1);
+  printf("coal: MAP change %zu [%zu, %zu] p %.2f, rates %.2f and %.2f\n",
+         1851 + day, 1851 + from, 1851 + to, prob, l0, l1);
+  fflush(stdout);
+  ck_assert(1851 + day == 1891 || 1851 + day == 1892);
+  ck_assert_double_eq_tol(l0, 3.1, 0.2);
+  ck_assert_double_eq_tol(l1, 0.9, 0.15);
+  twofold_changes_free(ch);
+  twofold_cp_options_free(o);
+}
+END_TEST
+
 /* ---- errors and NULL safety ------------------------------------------------ */
 
 START_TEST(errors_and_null) {
@@ -490,6 +852,14 @@ static Suite *changes_suite(void) {
   tcase_add_test(tc, jump_marginal_quadrature);
   tcase_add_test(tc, length_prior_negbin);
   tcase_add_test(tc, pruning_error);
+  tcase_set_timeout(tc, 120);
+  suite_add_tcase(s, tc);
+  tc = tcase_create("kink_online");
+  tcase_add_test(tc, kink_against_quadrature);
+  tcase_add_test(tc, online_exact_without_resampling);
+  tcase_add_test(tc, online_resampling);
+  tcase_add_test(tc, online_errors);
+  tcase_add_test(tc, coal_mining);
   tcase_set_timeout(tc, 120);
   suite_add_tcase(s, tc);
   tc = tcase_create("api");

@@ -1,4 +1,193 @@
 /* SPDX-License-Identifier: GPL-3.0-or-later */
+/*
+ * cli.h - the scaffold shared by the twofold commands (twofold,
+ * twofold-breaks, twofold-alert): messages, exit statuses, option helpers,
+ * reading input files, and a record writer for aligned tables, TSV, CSV
+ * and JSON Lines with all-or-nothing --output files.
+ *
+ * Everything here belongs to the commands, not to libtwofold: it prints,
+ * exits and keeps per-process state (the program name, the temporary
+ * output file to remove on a signal).
+ */
 #ifndef TWOFOLD_CLI_H
 #define TWOFOLD_CLI_H
+
+#include "twofold.h"
+
+#include <stddef.h>
+#include <stdint.h>
+#include <stdio.h>
+
+/* Exit statuses shared by the commands (each man page lists them). */
+enum {
+  TF_EXIT_OK = 0,     /* success                                         */
+  TF_EXIT_DATA = 1,   /* input read, but a requested region, column or
+                         date is not in it                               */
+  TF_EXIT_USAGE = 2,  /* bad option or argument                          */
+  TF_EXIT_INPUT = 3,  /* an input file cannot be read or is malformed    */
+  TF_EXIT_OUTPUT = 4  /* output cannot be written, or out of memory      */
+};
+
+/* ------------------------------------------------------------------ */
+/* Messages                                                            */
+/* ------------------------------------------------------------------ */
+
+/* Set the name messages are prefixed with (a fixed string such as
+ * "twofold", so messages do not depend on how the program was started). */
+void tf_cli_set_program(const char *name);
+const char *tf_cli_program(void);
+/* "PROGRAM: message\n" on stderr. */
+void tf_cli_msg(const char *fmt, ...)
+#if defined(__GNUC__)
+    __attribute__((format(printf, 1, 2)))
+#endif
+    ;
+/* A usage error: the message, then "Try 'PROGRAM --help'."; returns
+ * TF_EXIT_USAGE so callers can write  return tf_cli_usage_error(...); */
+int tf_cli_usage_error(const char *fmt, ...)
+#if defined(__GNUC__)
+    __attribute__((format(printf, 1, 2)))
+#endif
+    ;
+/* "PROGRAM X.Y.Z" on stdout (the version from twofold_version_string()),
+ * as --version prints it. */
+int tf_cli_print_version(void);
+
+/* ------------------------------------------------------------------ */
+/* Parsing option arguments                                            */
+/* ------------------------------------------------------------------ */
+/* Each returns 0 on success; otherwise it prints a usage message naming
+ * the option and returns TF_EXIT_USAGE. */
+
+/* A whole decimal number in [min, max]. */
+int tf_cli_parse_long(const char *opt, const char *arg, long min, long max,
+                      long *out);
+/* A finite number in the open interval (min, max). */
+int tf_cli_parse_double_open(const char *opt, const char *arg, double min,
+                             double max, double *out);
+/* Two positive finite numbers "A,B". */
+int tf_cli_parse_pair(const char *opt, const char *arg, double *a,
+                      double *b);
+/* An ISO 8601 date "YYYY-MM-DD". */
+int tf_cli_parse_date(const char *opt, const char *arg, int32_t *day);
+
+/* ------------------------------------------------------------------ */
+/* Input                                                               */
+/* ------------------------------------------------------------------ */
+
+/* Read every path (at least one; "-" is standard input, at most once)
+ * with the reader options and merge the regions into one new set, which
+ * the caller frees.  Returns TF_EXIT_OK, or TF_EXIT_INPUT (a region in two
+ * files, an unreadable or malformed file; the library's message, which
+ * names FILE:LINE:COLUMN and the value, is printed as it is) or
+ * TF_EXIT_OUTPUT (out of memory). */
+int tf_cli_read_inputs(char *const *paths, size_t npaths,
+                       const twofold_read_options *ro, twofold_set **out);
+
+/* ------------------------------------------------------------------ */
+/* Records: tables, TSV, CSV, JSON Lines                               */
+/* ------------------------------------------------------------------ */
+
+typedef enum tf_format {
+  TF_FORMAT_TABLE = 0, /* aligned columns for people (the default)        */
+  TF_FORMAT_TSV = 1,   /* tab-separated, a header line, \t \n \r \\ escaped */
+  TF_FORMAT_CSV = 2,   /* comma-separated, header, RFC 4180 quoting        */
+  TF_FORMAT_JSON = 3   /* JSON Lines: one object per record               */
+} tf_format;
+
+/* "table", "tsv", "csv", "json" and back (-1 for an unknown name). */
+const char *tf_format_name(int format);
+int tf_format_from_name(const char *name);
+
+typedef enum tf_cell_kind {
+  TF_CELL_NULL = 0, /* no value: "-" in tables, empty in TSV/CSV, null   */
+  TF_CELL_STR,      /* text (UTF-8)                                      */
+  TF_CELL_INT,      /* whole number                                      */
+  TF_CELL_DBL,      /* number; NaN is a null, +-INFINITY "inf"/"-inf" in
+                       tables, TSV and CSV and null in JSON              */
+  TF_CELL_DATE      /* day number, written YYYY-MM-DD                    */
+} tf_cell_kind;
+
+typedef struct tf_cell {
+  int kind;
+  /* For TF_CELL_DBL: decimals in tables, TSV and CSV (JSON always writes
+   * the shortest text that reads back as the same double).  A negative
+   * value writes the shortest round-trip text in every format. */
+  int prec;
+  /* For TF_CELL_DBL in tables, TSV and CSV: 1 to write the sign of every
+   * non-zero number, even where it rounds to zero ("+0.0", "-0.0"). */
+  int plus;
+  const char *s;
+  long long i;
+  double d;
+  int32_t day;
+} tf_cell;
+
+/* Cell constructors. */
+tf_cell tf_cell_null(void);
+tf_cell tf_cell_str(const char *s); /* NULL gives a null cell */
+tf_cell tf_cell_int(long long i);
+tf_cell tf_cell_dbl(double d, int prec);
+tf_cell tf_cell_dbl_signed(double d, int prec); /* with a '+' */
+tf_cell tf_cell_date(int32_t day);
+
+/* Column alignment in tables. */
+enum { TF_ALIGN_LEFT = 0, TF_ALIGN_RIGHT = 1 };
+
+typedef struct tf_column {
+  const char *name; /* header and JSON key                                */
+  int align;        /* TF_ALIGN_LEFT or TF_ALIGN_RIGHT (tables only)      */
+} tf_column;
+
+typedef struct tf_writer tf_writer;
+
+/* A writer of records with the given columns (the array and names are
+ * borrowed and must outlive the writer) to out.  Tables are held until
+ * tf_writer_finish() to measure the columns; the other formats stream.
+ * NULL when out of memory. */
+tf_writer *tf_writer_new(FILE *out, int format, const tf_column *cols,
+                         size_t ncols);
+/* Write one record of ncols cells (copied).  0, or -1 on a write error or
+ * out of memory (errno says which). */
+int tf_writer_row(tf_writer *w, const tf_cell *cells);
+/* Write what is held (tables) and flush.  0 or -1 as above. */
+int tf_writer_finish(tf_writer *w);
+void tf_writer_free(tf_writer *w);
+
+/* ------------------------------------------------------------------ */
+/* Output files written whole or not at all                            */
+/* ------------------------------------------------------------------ */
+
+typedef struct tf_output tf_output;
+
+/* Open the output: path NULL or "-" is standard output; otherwise a new
+ * temporary file in path's folder (mkstemp), renamed over path only by
+ * tf_output_commit().  Prints a message and returns NULL on failure. */
+tf_output *tf_output_open(const char *path);
+FILE *tf_output_stream(tf_output *o);
+/* Flush, fsync and rename the temporary file over the target (or flush
+ * standard output).  Frees o.  Returns TF_EXIT_OK or, after printing a
+ * message and removing the temporary file, TF_EXIT_OUTPUT. */
+int tf_output_commit(tf_output *o);
+/* Remove the temporary file; an existing target is never touched.  Frees
+ * o; accepts NULL. */
+void tf_output_abort(tf_output *o);
+
+/* ------------------------------------------------------------------ */
+/* Small helpers                                                       */
+/* ------------------------------------------------------------------ */
+
+/* A finite number with prec decimals (prec < 0: the shortest text that
+ * reads back exactly); if plus, the sign of every non-zero number, even
+ * where it rounds to zero; "inf" and "-inf" for infinities, "-" for NaN.
+ * Zero, and without plus a negative number that rounds to zero, is
+ * written unsigned.
+ * out holds >= 32 bytes. */
+const char *tf_cli_format_number(char *out, size_t size, double v, int prec,
+                                 int plus);
+
+/* A status code's short lower-case name: "ok" for 0, "fewevents" for
+ * TWOFOLD_EFEWEVENTS (from twofold_err_name()).  buf holds >= 32 bytes. */
+const char *tf_cli_status_name(int code, char *buf, size_t size);
+
 #endif

@@ -1,4 +1,851 @@
 /* SPDX-License-Identifier: GPL-3.0-or-later */
-#include "twofold.h"
-#include <stdio.h>
-int main(void) { printf("%s\n", twofold_version_string()); return 0; }
+/*
+ * twofold - growth rates and doubling times of daily counts per region.
+ *
+ * For each region, and for their sum, fit the log-linear count model of
+ * libtwofold(3) on a trailing window and report the growth rate with its
+ * interval, the doubling or halving time, the weekly change and a trend in
+ * plain words.  See twofold(1).
+ *
+ * The command only translates: options in, library calls, records out.
+ */
+#include "cli.h"
+#include "chart.h" /* --svg */
+
+#include <errno.h>
+#include <getopt.h>
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#define PROGRAM "twofold"
+/* The label of the sum over all regions. */
+#define TOTAL_LABEL "(total)"
+/* Default window: three whole weeks (see twofold(1)). */
+#define WINDOW_DEFAULT 21
+#define WINDOW_MAX 3660
+
+typedef struct options {
+  int format;
+  const char *output;
+  int summary;
+  long window;
+  int model;
+  double level;
+  int interval;
+  int weekday;
+  double min_events;
+  const char *offset;
+  int have_as_of;
+  int32_t as_of;
+  int every_day;
+  const char **regions;
+  size_t nregions;
+  int no_total;
+  const char *count;
+  int layout;
+  const char *region_column;
+  const char *date_column;
+  const char *svg; /* --svg FILE: chart.c */
+  int have_gi;
+  double gi_mean, gi_sd;
+} options;
+
+static void usage(FILE *f) {
+  fprintf(f,
+"Usage: %s [OPTION]... [FILE]...\n"
+"Growth rate, doubling or halving time and trend of the daily counts in\n"
+"each region of the CSV FILEs (plain or gzip; '-' or none: standard input),\n"
+"and of their sum, labelled " TOTAL_LABEL ".\n"
+"\n"
+"Estimates:\n"
+"  -w, --window=DAYS          days in the fitting window (default %d)\n"
+"  -m, --model=MODEL          poisson, quasipoisson or negbin (default negbin)\n"
+"  -l, --level=P              interval level, 0 < P < 1 (default 0.95)\n"
+"      --interval=KIND        default, wald, profile or small (default default)\n"
+"      --no-weekday           no day-of-week effects (default: fitted)\n"
+"      --weekday              fit day-of-week effects\n"
+"      --min-events=N         fewer counts in a window: too few (default %d)\n"
+"      --offset=COLUMN        log of COLUMN as offset (e.g. tests)\n"
+"  -g, --generation-interval=MEAN,SD\n"
+"                             add the reproduction number R for a gamma\n"
+"                             generation interval (days)\n"
+"Days and regions:\n"
+"  -a, --as-of=DATE           windows end on DATE (default: each region's\n"
+"                             last day with a count)\n"
+"  -e, --every-day            a row for every day, not only the last\n"
+"  -r, --region=NAME          only this region (repeatable; " TOTAL_LABEL " names\n"
+"                             the sum)\n"
+"      --no-total             leave out the sum over regions\n"
+"  -s, --summary              describe the input instead: dates, days,\n"
+"                             missing days and total count per region\n"
+"Input:\n"
+"  -c, --count=COLUMN         count column to use (default: the first)\n"
+"      --layout=LAYOUT        auto, long or wide (default auto)\n"
+"      --region-column=NAME   region column of long files (default region)\n"
+"      --date-column=NAME     date column (default date)\n"
+"Output:\n"
+"  -f, --format=FORMAT        table, tsv, csv or json (default table)\n"
+"  -o, --output=FILE          write FILE whole or not at all\n"
+"      --svg=FILE             also draw the growth charts as SVG into FILE\n"
+"  -h, --help                 show this help and exit\n"
+"  -V, --version              show the version and exit\n"
+"\n"
+"Exit status: 0 success, 1 a requested region, column or date is absent,\n"
+"2 usage error, 3 unreadable or malformed input, 4 output error.\n"
+"Estimates depend on testing and reporting; see twofold(1).\n",
+          PROGRAM, WINDOW_DEFAULT, TWOFOLD_MIN_EVENTS_DEFAULT);
+}
+
+enum {
+  OPT_INTERVAL = 256,
+  OPT_NO_WEEKDAY,
+  OPT_WEEKDAY,
+  OPT_MIN_EVENTS,
+  OPT_OFFSET,
+  OPT_NO_TOTAL,
+  OPT_LAYOUT,
+  OPT_REGION_COLUMN,
+  OPT_DATE_COLUMN,
+  OPT_SVG
+};
+
+static const struct option long_options[] = {
+    {"window", required_argument, NULL, 'w'},
+    {"model", required_argument, NULL, 'm'},
+    {"level", required_argument, NULL, 'l'},
+    {"interval", required_argument, NULL, OPT_INTERVAL},
+    {"no-weekday", no_argument, NULL, OPT_NO_WEEKDAY},
+    {"weekday", no_argument, NULL, OPT_WEEKDAY},
+    {"min-events", required_argument, NULL, OPT_MIN_EVENTS},
+    {"offset", required_argument, NULL, OPT_OFFSET},
+    {"generation-interval", required_argument, NULL, 'g'},
+    {"as-of", required_argument, NULL, 'a'},
+    {"every-day", no_argument, NULL, 'e'},
+    {"region", required_argument, NULL, 'r'},
+    {"no-total", no_argument, NULL, OPT_NO_TOTAL},
+    {"summary", no_argument, NULL, 's'},
+    {"count", required_argument, NULL, 'c'},
+    {"layout", required_argument, NULL, OPT_LAYOUT},
+    {"region-column", required_argument, NULL, OPT_REGION_COLUMN},
+    {"date-column", required_argument, NULL, OPT_DATE_COLUMN},
+    {"svg", required_argument, NULL, OPT_SVG},
+    {"format", required_argument, NULL, 'f'},
+    {"output", required_argument, NULL, 'o'},
+    {"help", no_argument, NULL, 'h'},
+    {"version", no_argument, NULL, 'V'},
+    {NULL, 0, NULL, 0}};
+
+/* Parse the command line; returns -1 to go on, or an exit status. */
+static int parse_args(int argc, char **argv, options *o) {
+  memset(o, 0, sizeof *o);
+  o->format = TF_FORMAT_TABLE;
+  o->window = WINDOW_DEFAULT;
+  o->model = TWOFOLD_MODEL_NEGBIN;
+  o->level = 0.95;
+  o->interval = TWOFOLD_INTERVAL_DEFAULT;
+  o->weekday = 1;
+  o->min_events = TWOFOLD_MIN_EVENTS_DEFAULT;
+  o->layout = TWOFOLD_LAYOUT_AUTO;
+  o->regions = calloc((size_t)argc, sizeof *o->regions);
+  if (o->regions == NULL) {
+    tf_cli_msg("out of memory");
+    return TF_EXIT_OUTPUT;
+  }
+  int c, st;
+  long v;
+  opterr = 0;
+  while ((c = getopt_long(argc, argv, ":w:m:l:g:a:er:sc:f:o:hV", long_options,
+                          NULL)) != -1) {
+    switch (c) {
+    case 'w':
+      if ((st = tf_cli_parse_long("--window", optarg, 2, WINDOW_MAX, &v)))
+        return st;
+      o->window = v;
+      break;
+    case 'm':
+      if ((o->model = twofold_model_from_string(optarg)) < 0)
+        return tf_cli_usage_error(
+            "--model: '%s' is not poisson, quasipoisson or negbin", optarg);
+      break;
+    case 'l':
+      if ((st = tf_cli_parse_double_open("--level", optarg, 0, 1, &o->level)))
+        return st;
+      break;
+    case OPT_INTERVAL:
+      if ((o->interval = twofold_interval_from_string(optarg)) < 0)
+        return tf_cli_usage_error(
+            "--interval: '%s' is not default, wald, profile or small",
+            optarg);
+      break;
+    case OPT_NO_WEEKDAY:
+      o->weekday = 0;
+      break;
+    case OPT_WEEKDAY:
+      o->weekday = 1;
+      break;
+    case OPT_MIN_EVENTS:
+      if ((st = tf_cli_parse_long("--min-events", optarg, 0, 1000000000L,
+                                  &v)))
+        return st;
+      o->min_events = (double)v;
+      break;
+    case OPT_OFFSET:
+      o->offset = optarg;
+      break;
+    case 'g':
+      if ((st = tf_cli_parse_pair("--generation-interval", optarg,
+                                  &o->gi_mean, &o->gi_sd)))
+        return st;
+      o->have_gi = 1;
+      break;
+    case 'a':
+      if ((st = tf_cli_parse_date("--as-of", optarg, &o->as_of)))
+        return st;
+      o->have_as_of = 1;
+      break;
+    case 'e':
+      o->every_day = 1;
+      break;
+    case 'r':
+      o->regions[o->nregions++] = optarg;
+      break;
+    case OPT_NO_TOTAL:
+      o->no_total = 1;
+      break;
+    case 's':
+      o->summary = 1;
+      break;
+    case 'c':
+      o->count = optarg;
+      break;
+    case OPT_LAYOUT:
+      if ((o->layout = twofold_layout_from_string(optarg)) < 0)
+        return tf_cli_usage_error("--layout: '%s' is not auto, long or wide",
+                                  optarg);
+      break;
+    case OPT_REGION_COLUMN:
+      o->region_column = optarg;
+      break;
+    case OPT_DATE_COLUMN:
+      o->date_column = optarg;
+      break;
+    case OPT_SVG:
+      o->svg = optarg;
+      break;
+    case 'f':
+      if ((o->format = tf_format_from_name(optarg)) < 0)
+        return tf_cli_usage_error(
+            "--format: '%s' is not table, tsv, csv or json", optarg);
+      break;
+    case 'o':
+      o->output = optarg;
+      break;
+    case 'h':
+      usage(stdout);
+      if (fflush(stdout) != 0 || ferror(stdout)) {
+        tf_cli_msg("cannot write to standard output");
+        return TF_EXIT_OUTPUT;
+      }
+      return TF_EXIT_OK;
+    case 'V':
+      return tf_cli_print_version();
+    case ':':
+      if (strncmp(argv[optind - 1], "--", 2) == 0)
+        return tf_cli_usage_error("option %s needs an argument",
+                                  argv[optind - 1]);
+      return tf_cli_usage_error("option -%c needs an argument", optopt);
+    default:
+      if (strncmp(argv[optind - 1], "--", 2) == 0)
+        return tf_cli_usage_error("unknown or ambiguous option %s",
+                                  argv[optind - 1]);
+      return tf_cli_usage_error("unknown option -%c", optopt);
+    }
+  }
+  if (o->summary && (o->every_day || o->have_gi || o->offset))
+    return tf_cli_usage_error(
+        "--summary describes the input: it takes no --every-day, "
+        "--generation-interval or --offset");
+  if (o->summary && o->svg)
+    return tf_cli_usage_error("--summary takes no --svg");
+  return -1;
+}
+
+/* ------------------------------------------------------------------ */
+/* The rows to report: selected regions, then the total                */
+/* ------------------------------------------------------------------ */
+
+typedef struct target {
+  const twofold_series *s; /* borrowed from the set, or the total      */
+  size_t col;              /* count column                              */
+  int ocol;                /* offset column, or -1                      */
+} target;
+
+/* Find the count and offset columns of s; TF_EXIT_DATA if absent. */
+static int resolve_columns(const options *o, const twofold_series *s,
+                           target *t) {
+  t->s = s;
+  t->col = 0;
+  t->ocol = -1;
+  if (o->count != NULL) {
+    int k = twofold_series_column_index(s, o->count);
+    if (k < 0) {
+      tf_cli_msg("region '%s' has no column '%s'", twofold_series_region(s),
+                 o->count);
+      return TF_EXIT_DATA;
+    }
+    t->col = (size_t)k;
+  }
+  if (o->offset != NULL) {
+    int k = twofold_series_column_index(s, o->offset);
+    if (k < 0) {
+      tf_cli_msg("region '%s' has no column '%s'", twofold_series_region(s),
+                 o->offset);
+      return TF_EXIT_DATA;
+    }
+    t->ocol = k;
+  }
+  return TF_EXIT_OK;
+}
+
+/* Build the list of targets; *total receives the total series to free. */
+static int select_targets(const options *o, const twofold_set *set,
+                          twofold_series **total, target **out, size_t *n) {
+  size_t count = twofold_set_count(set);
+  *total = NULL;
+  *out = NULL;
+  *n = 0;
+  if (twofold_set_find(set, TOTAL_LABEL) != NULL) {
+    tf_cli_msg("a region in the input is called '" TOTAL_LABEL
+               "', the label of the sum over regions");
+    return TF_EXIT_DATA;
+  }
+  int want_total = !o->no_total && o->nregions == 0;
+  for (size_t i = 0; i < o->nregions; i++) {
+    if (strcmp(o->regions[i], TOTAL_LABEL) == 0)
+      want_total = 1;
+    else if (twofold_set_find(set, o->regions[i]) == NULL) {
+      tf_cli_msg("no region '%s' in the input", o->regions[i]);
+      return TF_EXIT_DATA;
+    }
+  }
+  if (want_total && count > 0) {
+    int rc = twofold_set_total(set, TOTAL_LABEL, total);
+    if (rc != 0) {
+      tf_cli_msg("cannot sum the regions: %s", twofold_strerror(rc));
+      return rc == TWOFOLD_ENOMEM ? TF_EXIT_OUTPUT : TF_EXIT_DATA;
+    }
+  }
+  size_t cap = (o->nregions ? o->nregions : count) + 1;
+  target *t = calloc(cap, sizeof *t);
+  if (t == NULL) {
+    tf_cli_msg("out of memory");
+    return TF_EXIT_OUTPUT;
+  }
+  size_t k = 0;
+  int st = TF_EXIT_OK;
+  if (o->nregions == 0) {
+    for (size_t i = 0; i < count && st == TF_EXIT_OK; i++)
+      st = resolve_columns(o, twofold_set_at(set, i), &t[k++]);
+    if (st == TF_EXIT_OK && *total != NULL)
+      st = resolve_columns(o, *total, &t[k++]);
+  } else {
+    for (size_t i = 0; i < o->nregions && st == TF_EXIT_OK; i++) {
+      const twofold_series *s = strcmp(o->regions[i], TOTAL_LABEL) == 0
+                                    ? *total
+                                    : twofold_set_find(set, o->regions[i]);
+      if (s != NULL)
+        st = resolve_columns(o, s, &t[k++]);
+    }
+  }
+  if (st != TF_EXIT_OK) {
+    free(t);
+    return st;
+  }
+  *out = t;
+  *n = k;
+  return TF_EXIT_OK;
+}
+
+/* ------------------------------------------------------------------ */
+/* --summary                                                           */
+/* ------------------------------------------------------------------ */
+
+static const tf_column summary_cols[] = {
+    {"region", TF_ALIGN_LEFT},      {"column", TF_ALIGN_LEFT},
+    {"first_date", TF_ALIGN_LEFT},  {"last_date", TF_ALIGN_LEFT},
+    {"days", TF_ALIGN_RIGHT},       {"missing_days", TF_ALIGN_RIGHT},
+    {"total", TF_ALIGN_RIGHT}};
+#define NSUMMARY (sizeof summary_cols / sizeof summary_cols[0])
+
+static int write_summary(tf_writer *w, const target *t) {
+  const twofold_series *s = t->s;
+  size_t len = twofold_series_length(s);
+  int32_t first = twofold_series_first_day(s);
+  tf_cell c[NSUMMARY];
+  c[0] = tf_cell_str(twofold_series_region(s));
+  c[1] = tf_cell_str(twofold_series_column_name(s, t->col));
+  c[2] = len ? tf_cell_date(first) : tf_cell_null();
+  c[3] = len ? tf_cell_date(first + (int32_t)(len - 1)) : tf_cell_null();
+  c[4] = tf_cell_int((long long)len);
+  c[5] = tf_cell_int((long long)twofold_series_missing(s, t->col));
+  c[6] = tf_cell_dbl(twofold_series_total(s, t->col), 0);
+  return tf_writer_row(w, c);
+}
+
+/* ------------------------------------------------------------------ */
+/* Growth rows                                                         */
+/* ------------------------------------------------------------------ */
+
+/* One window's results, as the records show them. */
+typedef struct estimate {
+  int32_t start, end;
+  size_t days, missing;
+  double events;
+  int status;     /* 0 or the fit's TWOFOLD_E... status              */
+  double r, lo, hi;        /* per day; NaN where absent                 */
+  double t, t_lo, t_hi;    /* days; INFINITY where unbounded            */
+  int sense;               /* +1 doubling, -1 halving, 0 neither        */
+  double R, R_lo, R_hi;
+} estimate;
+
+/* Work space for one window. */
+typedef struct work {
+  double *y, *off;
+  twofold_fit *fit;
+  twofold_fit_options *fo;
+  twofold_gi *gi;
+} work;
+
+static const char *trend_of(const estimate *e, char *buf, size_t size) {
+  switch (e->status) {
+  case 0:
+    if (e->lo > 0)
+      return "growing";
+    if (e->hi < 0)
+      return "shrinking";
+    if (isnan(e->lo) || isnan(e->hi))
+      return "no clear trend";
+    return "no clear trend";
+  case TWOFOLD_EZERO:
+  case TWOFOLD_EFEWEVENTS:
+  case TWOFOLD_ENODATA:
+    return "too few counts";
+  default:
+    return tf_cli_status_name(e->status, buf, size);
+  }
+}
+
+/* Fit the window of o->window days ending on day end.  Returns 0, or a
+ * status that is not a property of the data (out of memory, a bug). */
+static int estimate_window(const options *o, work *wk, const target *t,
+                           int32_t end, estimate *e) {
+  const twofold_series *s = t->s;
+  size_t w = (size_t)o->window;
+  int32_t first = twofold_series_first_day(s);
+  size_t len = twofold_series_length(s);
+  const double *v = twofold_series_values(s, t->col);
+  const double *ov = t->ocol >= 0 ? twofold_series_values(s, (size_t)t->ocol)
+                                  : NULL;
+  memset(e, 0, sizeof *e);
+  e->end = end;
+  e->start = end - (int32_t)w + 1;
+  e->days = w;
+  e->r = e->lo = e->hi = NAN;
+  e->t = e->t_lo = e->t_hi = NAN;
+  e->R = e->R_lo = e->R_hi = NAN;
+  for (size_t k = 0; k < w; k++) {
+    int64_t idx = (int64_t)e->start + (int64_t)k - first;
+    double y = NAN, off = 0;
+    if (idx >= 0 && (uint64_t)idx < len) {
+      y = v[idx];
+      if (ov != NULL) {
+        /* A day without a positive offset value cannot be fitted. */
+        double x = ov[idx];
+        if (isnan(x) || !(x > 0))
+          y = NAN;
+        else
+          off = log(x);
+      }
+    }
+    wk->y[k] = y;
+    wk->off[k] = off;
+    if (isnan(y))
+      e->missing++;
+    else
+      e->events += y;
+  }
+  int rc = twofold_growth_fit(wk->fit, wk->fo, wk->y, ov ? wk->off : NULL, w,
+                              twofold_date_weekday(e->start));
+  if (rc == TWOFOLD_ENOMEM || rc == TWOFOLD_EINVAL)
+    return rc;
+  e->status = rc;
+  if (rc != 0)
+    return 0;
+  e->r = twofold_fit_rate(wk->fit);
+  rc = twofold_fit_interval(wk->fit, TWOFOLD_INTERVAL_DEFAULT, &e->lo,
+                            &e->hi);
+  if (rc == TWOFOLD_ENOMEM)
+    return rc;
+  if (rc != 0) {
+    e->status = rc;
+    e->lo = e->hi = NAN;
+  }
+  if (isfinite(e->lo) && isfinite(e->hi) && isfinite(e->r)) {
+    if (twofold_doubling_time(e->r, e->lo, e->hi, &e->t, &e->t_lo, &e->t_hi,
+                              &e->sense) != 0)
+      e->t = e->t_lo = e->t_hi = NAN;
+  }
+  if (wk->gi != NULL) {
+    if (twofold_gi_reproduction(wk->gi, e->r, &e->R) != 0)
+      e->R = NAN;
+    if (!isfinite(e->lo) || twofold_gi_reproduction(wk->gi, e->lo, &e->R_lo))
+      e->R_lo = NAN;
+    if (!isfinite(e->hi) || twofold_gi_reproduction(wk->gi, e->hi, &e->R_hi))
+      e->R_hi = NAN;
+  }
+  return 0;
+}
+
+/* Percent change over a week at rate r per day. */
+static double weekly(double r) { return isfinite(r) ? 100 * expm1(7 * r) : NAN; }
+
+/* Columns of TSV, CSV and JSON records; the first part of every record,
+ * then the reproduction number if asked for, then trend and status. */
+static const tf_column growth_cols[] = {
+    {"region", TF_ALIGN_LEFT},
+    {"column", TF_ALIGN_LEFT},
+    {"date", TF_ALIGN_LEFT},
+    {"window_start", TF_ALIGN_LEFT},
+    {"window_end", TF_ALIGN_LEFT},
+    {"days", TF_ALIGN_RIGHT},
+    {"days_missing", TF_ALIGN_RIGHT},
+    {"events", TF_ALIGN_RIGHT},
+    {"model", TF_ALIGN_LEFT},
+    {"level", TF_ALIGN_RIGHT},
+    {"growth_rate", TF_ALIGN_RIGHT},
+    {"growth_rate_lo", TF_ALIGN_RIGHT},
+    {"growth_rate_hi", TF_ALIGN_RIGHT},
+    {"sense", TF_ALIGN_LEFT},
+    {"doubling_time", TF_ALIGN_RIGHT},
+    {"doubling_time_lo", TF_ALIGN_RIGHT},
+    {"doubling_time_hi", TF_ALIGN_RIGHT},
+    {"weekly_change", TF_ALIGN_RIGHT},
+    {"weekly_change_lo", TF_ALIGN_RIGHT},
+    {"weekly_change_hi", TF_ALIGN_RIGHT},
+    {"reproduction", TF_ALIGN_RIGHT},
+    {"reproduction_lo", TF_ALIGN_RIGHT},
+    {"reproduction_hi", TF_ALIGN_RIGHT},
+    {"trend", TF_ALIGN_LEFT},
+    {"status", TF_ALIGN_LEFT}};
+#define NGROWTH (sizeof growth_cols / sizeof growth_cols[0])
+#define GROWTH_R_FIRST 20 /* index of "reproduction" */
+
+/* The aligned table for people has fewer, rounded columns, so that it
+ * fits 80 columns with region names of up to 20 characters (see
+ * twofold(1)); the interval header is made from the level. */
+static size_t record_columns(const options *o, tf_column *cols,
+                             char *ci_header, size_t size) {
+  size_t n = 0;
+  if (o->format != TF_FORMAT_TABLE) {
+    for (size_t j = 0; j < NGROWTH; j++)
+      if (o->have_gi || j < GROWTH_R_FIRST || j >= GROWTH_R_FIRST + 3)
+        cols[n++] = growth_cols[j];
+    return n;
+  }
+  char pct[32];
+  tf_cli_format_number(pct, sizeof pct, 100 * o->level, -1, 0);
+  snprintf(ci_header, size, "%s%% CI", pct);
+  cols[n++] = (tf_column){"region", TF_ALIGN_LEFT};
+  cols[n++] = (tf_column){"date", TF_ALIGN_LEFT};
+  cols[n++] = (tf_column){"%/day", TF_ALIGN_RIGHT};
+  cols[n++] = (tf_column){ci_header, TF_ALIGN_LEFT};
+  cols[n++] = (tf_column){"dbl/hlv", TF_ALIGN_RIGHT};
+  if (o->have_gi) {
+    cols[n++] = (tf_column){"R", TF_ALIGN_RIGHT};
+    cols[n++] = (tf_column){ci_header, TF_ALIGN_LEFT};
+  }
+  cols[n++] = (tf_column){"trend", TF_ALIGN_LEFT};
+  return n;
+}
+
+/* "LO..HI" for a table; NULL (shown "-") if either end is NaN. */
+static const char *range_text(char *out, size_t size, double lo, double hi,
+                              int prec, int plus) {
+  if (isnan(lo) || isnan(hi))
+    return NULL;
+  char a[32], b[32];
+  tf_cli_format_number(a, sizeof a, lo, prec, plus);
+  tf_cli_format_number(b, sizeof b, hi, prec, plus);
+  snprintf(out, size, "%s..%s", a, b);
+  return out;
+}
+
+static int write_estimate(const options *o, tf_writer *w, const target *t,
+                          const estimate *e) {
+  tf_cell c[NGROWTH];
+  size_t n = 0;
+  char sbuf[32], tbuf[32];
+  const char *trend = trend_of(e, tbuf, sizeof tbuf);
+  const char *region = twofold_series_region(t->s);
+  if (o->format == TF_FORMAT_TABLE) {
+    char r_ci[80], R_ci[80];
+    /* Doubling or halving times only where the trend is clear: when the
+     * interval for r holds 0 the data are consistent with no change, and
+     * the growth rate, not a time, is the figure to report. */
+    int clear = e->status == 0 && (e->lo > 0 || e->hi < 0);
+    c[n++] = tf_cell_str(region);
+    c[n++] = tf_cell_date(e->end);
+    c[n++] = tf_cell_dbl_signed(100 * e->r, 1);
+    c[n++] = tf_cell_str(
+        range_text(r_ci, sizeof r_ci, 100 * e->lo, 100 * e->hi, 1, 1));
+    c[n++] = clear ? tf_cell_dbl(e->t, 1) : tf_cell_null();
+    if (o->have_gi) {
+      c[n++] = tf_cell_dbl(e->R, 2);
+      c[n++] = tf_cell_str(range_text(R_ci, sizeof R_ci, e->R_lo, e->R_hi, 2, 0));
+    }
+    c[n++] = tf_cell_str(trend);
+    return tf_writer_row(w, c);
+  }
+  c[n++] = tf_cell_str(region);
+  c[n++] = tf_cell_str(twofold_series_column_name(t->s, t->col));
+  c[n++] = tf_cell_date(e->end);
+  c[n++] = tf_cell_date(e->start);
+  c[n++] = tf_cell_date(e->end);
+  c[n++] = tf_cell_int((long long)e->days);
+  c[n++] = tf_cell_int((long long)e->missing);
+  c[n++] = tf_cell_dbl(e->events, 0);
+  c[n++] = tf_cell_str(twofold_model_to_string(o->model));
+  c[n++] = tf_cell_dbl(o->level, -1);
+  c[n++] = tf_cell_dbl(100 * e->r, -1);
+  c[n++] = tf_cell_dbl(100 * e->lo, -1);
+  c[n++] = tf_cell_dbl(100 * e->hi, -1);
+  c[n++] = tf_cell_str(e->sense > 0 ? "doubling"
+                       : e->sense < 0 ? "halving"
+                                      : NULL);
+  c[n++] = tf_cell_dbl(e->t, -1);
+  c[n++] = tf_cell_dbl(e->t_lo, -1);
+  c[n++] = tf_cell_dbl(e->t_hi, -1);
+  c[n++] = tf_cell_dbl(weekly(e->r), -1);
+  c[n++] = tf_cell_dbl(weekly(e->lo), -1);
+  c[n++] = tf_cell_dbl(weekly(e->hi), -1);
+  if (o->have_gi) {
+    c[n++] = tf_cell_dbl(e->R, -1);
+    c[n++] = tf_cell_dbl(e->R_lo, -1);
+    c[n++] = tf_cell_dbl(e->R_hi, -1);
+  }
+  c[n++] = tf_cell_str(trend);
+  c[n++] = tf_cell_str(tf_cli_status_name(e->status, sbuf, sizeof sbuf));
+  return tf_writer_row(w, c);
+}
+
+/* First and last day with a count in column col; 0 if there is none. */
+static int present_range(const target *t, int32_t *lo, int32_t *hi) {
+  const double *v = twofold_series_values(t->s, t->col);
+  size_t len = twofold_series_length(t->s);
+  size_t a = 0, b = len;
+  while (a < len && isnan(v[a]))
+    a++;
+  while (b > a && isnan(v[b - 1]))
+    b--;
+  if (a == b)
+    return 0;
+  *lo = twofold_series_first_day(t->s) + (int32_t)a;
+  *hi = twofold_series_first_day(t->s) + (int32_t)(b - 1);
+  return 1;
+}
+
+static int write_target(const options *o, work *wk, tf_writer *w,
+                        const target *t) {
+  int32_t lo = 0, hi = 0;
+  int any = present_range(t, &lo, &hi);
+  int32_t end = o->have_as_of ? o->as_of : hi;
+  if (!any && !o->have_as_of) {
+    /* No count at all: one row says so. */
+    end = twofold_series_length(t->s) > 0
+              ? twofold_series_first_day(t->s) +
+                    (int32_t)(twofold_series_length(t->s) - 1)
+              : 0;
+  }
+  int32_t from = end;
+  if (o->every_day && any) {
+    from = lo + (int32_t)o->window - 1;
+    if (from > end)
+      from = end;
+  }
+  for (int32_t d = from; d <= end; d++) {
+    estimate e;
+    int rc = estimate_window(o, wk, t, d, &e);
+    if (rc != 0) {
+      tf_cli_msg("%s: %s", twofold_series_region(t->s),
+                 rc == TWOFOLD_ENOMEM ? "out of memory"
+                                      : twofold_strerror(rc));
+      return TF_EXIT_OUTPUT;
+    }
+    if (write_estimate(o, w, t, &e) != 0)
+      return -1;
+  }
+  return TF_EXIT_OK;
+}
+
+static int work_init(const options *o, work *wk) {
+  memset(wk, 0, sizeof *wk);
+  size_t w = (size_t)o->window;
+  wk->y = malloc(w * sizeof *wk->y);
+  wk->off = malloc(w * sizeof *wk->off);
+  if (wk->y == NULL || wk->off == NULL)
+    return TWOFOLD_ENOMEM;
+  int rc = twofold_fit_new(&wk->fit);
+  if (rc == 0)
+    rc = twofold_fit_options_new(&wk->fo);
+  if (rc == 0)
+    rc = twofold_fit_options_set_model(wk->fo, o->model);
+  if (rc == 0)
+    rc = twofold_fit_options_set_level(wk->fo, o->level);
+  if (rc == 0)
+    rc = twofold_fit_options_set_weekday(wk->fo, o->weekday);
+  if (rc == 0)
+    rc = twofold_fit_options_set_interval(wk->fo, o->interval);
+  if (rc == 0)
+    rc = twofold_fit_options_set_min_events(wk->fo, o->min_events);
+  if (rc == 0 && o->have_gi)
+    rc = twofold_gi_new_gamma(o->gi_mean, o->gi_sd, &wk->gi);
+  return rc;
+}
+
+static void work_free(work *wk) {
+  free(wk->y);
+  free(wk->off);
+  twofold_fit_free(wk->fit);
+  twofold_fit_options_free(wk->fo);
+  twofold_gi_free(wk->gi);
+}
+
+/* ------------------------------------------------------------------ */
+/* main                                                                */
+/* ------------------------------------------------------------------ */
+
+static int make_read_options(const options *o, twofold_read_options **out) {
+  int rc = twofold_read_options_new(out);
+  if (rc == 0)
+    rc = twofold_read_options_set_layout(*out, o->layout);
+  if (rc == 0 && o->region_column)
+    rc = twofold_read_options_set_region_column(*out, o->region_column);
+  if (rc == 0 && o->date_column)
+    rc = twofold_read_options_set_date_column(*out, o->date_column);
+  return rc;
+}
+
+static int run(const options *o, char **files, size_t nfiles) {
+  static char *stdin_only[] = {(char *)"-"};
+  int stdin_seen = 0;
+  for (size_t i = 0; i < nfiles; i++)
+    if (strcmp(files[i], "-") == 0 && stdin_seen++)
+      return tf_cli_usage_error("standard input ('-') named twice");
+  if (nfiles == 0) {
+    files = stdin_only;
+    nfiles = 1;
+  }
+
+  twofold_read_options *ro = NULL;
+  twofold_set *set = NULL;
+  twofold_series *total = NULL;
+  target *targets = NULL;
+  size_t ntargets = 0;
+  tf_output *out = NULL;
+  tf_writer *w = NULL;
+  work wk;
+  memset(&wk, 0, sizeof wk);
+  int st;
+
+  if (make_read_options(o, &ro) != 0) {
+    tf_cli_msg("out of memory");
+    st = TF_EXIT_OUTPUT;
+    goto done;
+  }
+  if ((st = tf_cli_read_inputs(files, nfiles, ro, &set)) != TF_EXIT_OK)
+    goto done;
+  if ((st = select_targets(o, set, &total, &targets, &ntargets)) !=
+      TF_EXIT_OK)
+    goto done;
+  if (!o->summary) {
+    int rc = work_init(o, &wk);
+    if (rc != 0) {
+      tf_cli_msg("%s", twofold_strerror(rc));
+      st = rc == TWOFOLD_ENOMEM ? TF_EXIT_OUTPUT : TF_EXIT_USAGE;
+      goto done;
+    }
+  }
+
+  /* The chart (chart.c), written whole before the records. */
+  if (o->svg != NULL) {
+    tf_chart *ch = tf_chart_new(wk.fo, (size_t)o->window, o->level,
+                                o->have_as_of, o->as_of);
+    for (size_t i = 0; ch != NULL && i < ntargets; i++)
+      tf_chart_add(ch, targets[i].s, targets[i].col, targets[i].ocol,
+                   targets[i].s == total);
+    st = ch != NULL ? tf_chart_write(ch, o->svg) : TF_EXIT_OUTPUT;
+    tf_chart_free(ch);
+    if (st != TF_EXIT_OK)
+      goto done;
+  }
+
+  /* Only now, with the input read, open the output. */
+  if ((out = tf_output_open(o->output)) == NULL) {
+    st = TF_EXIT_OUTPUT;
+    goto done;
+  }
+  tf_column cols[NGROWTH];
+  char ci_header[48];
+  size_t ncols;
+  if (o->summary) {
+    memcpy(cols, summary_cols, sizeof summary_cols);
+    ncols = NSUMMARY;
+  } else {
+    ncols = record_columns(o, cols, ci_header, sizeof ci_header);
+  }
+  w = tf_writer_new(tf_output_stream(out), o->format, cols, ncols);
+  if (w == NULL) {
+    tf_cli_msg("out of memory");
+    st = TF_EXIT_OUTPUT;
+    goto done;
+  }
+  for (size_t i = 0; i < ntargets && st == TF_EXIT_OK; i++) {
+    if (o->summary)
+      st = write_summary(w, &targets[i]) == 0 ? TF_EXIT_OK : -1;
+    else
+      st = write_target(o, &wk, w, &targets[i]);
+  }
+  if (st == TF_EXIT_OK && tf_writer_finish(w) != 0)
+    st = -1;
+  if (st == -1) {
+    tf_cli_msg("cannot write to %s: %s",
+               o->output && strcmp(o->output, "-") ? o->output
+                                                   : "standard output",
+               strerror(errno));
+    st = TF_EXIT_OUTPUT;
+  }
+  if (st == TF_EXIT_OK) {
+    st = tf_output_commit(out);
+    out = NULL;
+  }
+done:
+  tf_output_abort(out);
+  tf_writer_free(w);
+  work_free(&wk);
+  free(targets);
+  twofold_series_free(total);
+  twofold_set_free(set);
+  twofold_read_options_free(ro);
+  return st;
+}
+
+int main(int argc, char **argv) {
+  tf_cli_set_program(PROGRAM);
+  options o;
+  int st = parse_args(argc, argv, &o);
+  if (st < 0)
+    st = run(&o, argv + optind, (size_t)(argc - optind));
+  free(o.regions);
+  return st;
+}

@@ -1,0 +1,1257 @@
+/* SPDX-License-Identifier: GPL-3.0-or-later */
+/*
+ * The numerical core of the growth module: maximum-likelihood fits of
+ *     log mu_t = a + r*t [+ w_weekday(t)] [+ offset_t]
+ * on one window, Poisson (and quasi-Poisson) or negative binomial NB2,
+ * with Wald, profile-likelihood and small-sample intervals for r.
+ *
+ * Parametrisation.  Internally the model carries one log-level b_j per
+ * weekday class j (seven classes, or one when weekday effects are off);
+ * a = mean_j b_j and w_j = b_j - a give the public intercept and the
+ * sum-to-zero weekday effects.  The two parametrisations span the same
+ * linear predictor, so r, its standard error, the likelihood and every
+ * interval are the same.
+ *
+ * Poisson.  Given r, the b_j have closed-form maximisers
+ * b_j(r) = log Y_j - log E0_j(r), E0_j(r) = sum_{t in j} e^{o_t + r t},
+ * which leaves the concave one-dimensional profile log-likelihood
+ *     l_p(r) = r T - sum_j Y_j log E0_j(r) + const,    T = sum_t t y_t,
+ * with l_p'(r) = T - sum_j Y_j m_j(r) and l_p''(r) = -sum_j Y_j V_j(r),
+ * m_j and V_j the mean and variance of t under the weights e^{o_t + r t}
+ * of class j.  The maximum likelihood estimate solves l_p'(r) = 0 (Newton
+ * safeguarded by bisection) and 1 / -l_p''(r_hat) is exactly the (r, r)
+ * element of the inverse Fisher information of the full model (Schur
+ * complement), so SE(r) = (sum_j Y_j V_j)^{-1/2}.  Without offsets and
+ * missing days E0_j, m_j, V_j are geometric sums in closed form
+ * (METHODS.md B2/B3), which lib/roll.c uses to fit a window in O(1).
+ *
+ * Separation.  l_p'(r) is decreasing from sum_j Y_j (T_j/Y_j - tmax_j)
+ * to ...; the MLE is infinite exactly when, in every weekday class, all
+ * events fall on the class's last present day (r -> +inf: zeros, then
+ * positive counts only on the last day of each class) or all on its first
+ * (r -> -inf), or when a class has no events at all (its b_j -> -inf).
+ * These are tested exactly before fitting (TWOFOLD_ESEPARATION).  The
+ * same condition governs NB2 with a log link (the likelihood at fixed
+ * theta is unbounded in the same directions).
+ *
+ * NB2.  Alternate, as MASS::glm.nb does (Venables & Ripley 2002, Modern
+ * Applied Statistics with S, 4th ed., Springer, section 7.4): Newton on
+ * (r, b) at fixed theta (observed information; the arrow-shaped Hessian
+ * is solved in O(classes)), then Newton on log theta at fixed mu (the
+ * score and information of MASS's theta.ml), until both are stationary.
+ * theta is capped at TF_THETA_CAP (TWOFOLD_FIT_THETA_CAPPED).  The
+ * standard error of r uses the expected information (X'WX)^{-1},
+ * W = mu / (1 + mu/theta), at the estimates, as glm.nb and statsmodels'
+ * GLM do (beta and theta are orthogonal in expectation: Lawless 1987,
+ * Can J Stat 15:209-225).
+ */
+#include "growth_internal.h"
+
+#include <float.h>
+#include <gsl/gsl_cdf.h>
+#include <gsl/gsl_sf_gamma.h>
+#include <gsl/gsl_sf_psi.h>
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+/* ------------------------------------------------------------------ */
+/* Small helpers                                                       */
+/* ------------------------------------------------------------------ */
+
+/* Neumaier's compensated summation (Neumaier 1974, ZAMM 54:39-51). */
+typedef struct {
+  double s, c;
+} ksum;
+
+static inline void ks_add(ksum *k, double v) {
+  double t = k->s + v;
+  if (fabs(k->s) >= fabs(v))
+    k->c += (k->s - t) + v;
+  else
+    k->c += (v - t) + k->s;
+  k->s = t;
+}
+static inline double ks_val(const ksum *k) { return k->s + k->c; }
+
+double tf_norm_q(double p) {
+  if (!(p > 0.0 && p < 1.0))
+    return NAN;
+  return gsl_cdf_ugaussian_Pinv(p);
+}
+
+double tf_t_q(double p, double df) {
+  if (!(p > 0.0 && p < 1.0) || !(df > 0.0) || !isfinite(df))
+    return NAN;
+  return gsl_cdf_tdist_Pinv(p, df);
+}
+
+double tf_chisq1_q(double level) {
+  if (!(level > 0.0 && level < 1.0))
+    return NAN;
+  return gsl_cdf_chisq_Pinv(level, 1.0);
+}
+
+/* log Gamma(y + 1) for a whole number y >= 0. */
+static double lfact(double y) { return gsl_sf_lngamma(y + 1.0); }
+
+/* log Gamma(theta + y) - log Gamma(theta), theta > 0, y >= 0 whole. */
+static double lnpoch(double theta, double y) {
+  if (y == 0.0)
+    return 0.0;
+  if (y <= 8.0) {
+    double s = 0.0;
+    for (double k = 0.0; k < y; k += 1.0)
+      s += log(theta + k);
+    return s;
+  }
+  return gsl_sf_lnpoch(theta, y);
+}
+
+/* psi(theta + y) - psi(theta) and psi'(theta) - psi'(theta + y). */
+static void psidiff(double theta, double y, double *d1, double *d2) {
+  if (y <= 24.0) {
+    double s1 = 0.0, s2 = 0.0;
+    for (double k = 0.0; k < y; k += 1.0) {
+      double u = 1.0 / (theta + k);
+      s1 += u;
+      s2 += u * u;
+    }
+    *d1 = s1;
+    *d2 = s2;
+    return;
+  }
+  if (theta >= 1e3) {
+    /* differences of the asymptotic series (Abramowitz & Stegun 1964,
+     * 6.3.18 and 6.4.12), formed without cancellation: the direct
+     * difference of psi values loses the O(1/theta^2) signal the score
+     * needs at large theta */
+    double x = theta, xy = theta + y;
+    double i1 = y / (x * xy);                            /* 1/x - 1/xy     */
+    double i2 = y * (x + xy) / (x * x * xy * xy);        /* 1/x^2 - 1/xy^2 */
+    double i3 = i1 * (1.0 / (x * x) + 1.0 / (x * xy) + 1.0 / (xy * xy));
+    double x2 = x * x, xy2 = xy * xy;
+    double i4 = i2 * (1.0 / x2 + 1.0 / xy2);
+    double i5 = 1.0 / (x2 * x2 * x) - 1.0 / (xy2 * xy2 * xy);
+    double i6 = 1.0 / (x2 * x2 * x2) - 1.0 / (xy2 * xy2 * xy2);
+    double i7 = 1.0 / (x2 * x2 * x2 * x) - 1.0 / (xy2 * xy2 * xy2 * xy);
+    *d1 = log1p(y / x) + i1 / 2.0 + i2 / 12.0 - i4 / 120.0 + i6 / 252.0;
+    *d2 = i1 + i2 / 2.0 + i3 / 6.0 - i5 / 30.0 + i7 / 42.0;
+    return;
+  }
+  *d1 = gsl_sf_psi(theta + y) - gsl_sf_psi(theta);
+  *d2 = gsl_sf_psi_1(theta) - gsl_sf_psi_1(theta + y);
+}
+
+/* Closed-form moments of k = 0..L-1 under weights e^{b k} (METHODS.md B2):
+ * log of the sum, mean and variance.  expm1 keeps digits near b = 0 and a
+ * series is used for |b| L < 0.05, where the closed forms cancel. */
+void tf_geom(double b, double L, double *logE0, double *m, double *v) {
+  if (L <= 1.0) {
+    *logE0 = 0.0;
+    *m = 0.0;
+    *v = 0.0;
+    return;
+  }
+  double bL = b * L;
+  if (fabs(bL) < 0.05) {
+    double L2 = L * L, L4 = L2 * L2, L6 = L4 * L2;
+    double b2 = b * b;
+    *m = (L - 1.0) / 2.0 + b * (L2 - 1.0) / 12.0 -
+         b * b2 * (L4 - 1.0) / 720.0 + b * b2 * b2 * (L6 - 1.0) / 30240.0;
+    *v = (L2 - 1.0) / 12.0 - b2 * (L4 - 1.0) / 240.0 +
+         b2 * b2 * (L6 - 1.0) / 6048.0;
+    /* cumulant generating function of the uniform on 0..L-1 */
+    *logE0 = log(L) + b * (L - 1.0) / 2.0 + b2 * (L2 - 1.0) / 24.0 -
+             b2 * b2 * (L4 - 1.0) / 2880.0 + b2 * b2 * b2 * (L6 - 1.0) / 181440.0;
+    return;
+  }
+  double ab = fabs(b);
+  double eL = -expm1(-ab * L); /* 1 - e^{-|b| L} */
+  double e1 = -expm1(-ab);     /* 1 - e^{-|b|}   */
+  double mpos = L / eL - 1.0 / e1; /* mean for +|b| */
+  if (b > 0.0) {
+    *logE0 = b * (L - 1.0) + log(eL) - log(e1);
+    *m = mpos;
+  } else {
+    *logE0 = log(eL) - log(e1);
+    *m = (L - 1.0) - mpos;
+  }
+  double s1 = sinh(ab / 2.0), sL = sinh(ab * L / 2.0);
+  double vv = 1.0 / (4.0 * s1 * s1) - (L * L) / (4.0 * sL * sL);
+  *v = vv > 0.0 ? vv : 0.0;
+}
+
+/* ------------------------------------------------------------------ */
+/* The window                                                          */
+/* ------------------------------------------------------------------ */
+
+typedef struct {
+  size_t n;
+  const double *y;
+  const double *off;
+  int wd0;
+  int nc;
+  size_t used;
+  double Y[7];     /* events per class */
+  double Ytot, T;  /* total events, sum t*y */
+  double yo;       /* sum y*o */
+  long tfirst[7], tlast[7];
+  double yfirst[7], ylast[7];
+  size_t cnt[7];
+  /* geometry mode (lib/roll.c): complete window, no offset; class j has
+   * days u0[j] + 7k, k = 0..L[j]-1.  The window pointer y is then unused
+   * by the Poisson path. */
+  int geom;
+  double u0[7], L[7];
+} win_t;
+
+static inline int cls(const win_t *w, size_t t) {
+  return w->nc == 7 ? (int)((w->wd0 + t) % 7) : 0;
+}
+
+static inline double offv(const win_t *w, size_t t) {
+  return w->off ? w->off[t] : 0.0;
+}
+
+/* Poisson class moments at r. */
+static void pois_moments(const win_t *w, double r, double *logE0, double *m,
+                         double *V) {
+  int nc = w->nc;
+  if (w->geom) {
+    /* at most two distinct class lengths */
+    double Lc[2] = {-1, -1}, lg[2] = {0, 0}, mg[2] = {0, 0}, vg[2] = {0, 0};
+    double step = nc == 7 ? 7.0 : 1.0;
+    for (int j = 0; j < nc; j++) {
+      int s = (Lc[0] == w->L[j]) ? 0 : (Lc[1] == w->L[j]) ? 1 : -1;
+      if (s < 0) {
+        s = Lc[0] < 0 ? 0 : 1;
+        Lc[s] = w->L[j];
+        tf_geom(step * r, w->L[j], &lg[s], &mg[s], &vg[s]);
+      }
+      logE0[j] = r * w->u0[j] + lg[s];
+      m[j] = w->u0[j] + step * mg[s];
+      V[j] = step * step * vg[s];
+    }
+    return;
+  }
+  double mx[7];
+  for (int j = 0; j < nc; j++)
+    mx[j] = -INFINITY;
+  for (size_t t = 0; t < w->n; t++) {
+    if (tf_isnan(w->y[t]))
+      continue;
+    int j = cls(w, t);
+    double e = offv(w, t) + r * (double)t;
+    if (e > mx[j])
+      mx[j] = e;
+  }
+  double E0[7] = {0}, E1[7] = {0}, E2[7] = {0};
+  for (size_t t = 0; t < w->n; t++) {
+    if (tf_isnan(w->y[t]))
+      continue;
+    int j = cls(w, t);
+    double e = exp(offv(w, t) + r * (double)t - mx[j]);
+    double u = (double)(t - (size_t)w->tfirst[j]);
+    E0[j] += e;
+    E1[j] += e * u;
+  }
+  for (int j = 0; j < nc; j++) {
+    logE0[j] = mx[j] + log(E0[j]);
+    m[j] = E1[j] / E0[j];
+  }
+  for (size_t t = 0; t < w->n; t++) {
+    if (tf_isnan(w->y[t]))
+      continue;
+    int j = cls(w, t);
+    double e = exp(offv(w, t) + r * (double)t - mx[j]);
+    double d = (double)(t - (size_t)w->tfirst[j]) - m[j];
+    E2[j] += e * d * d;
+  }
+  for (int j = 0; j < nc; j++) {
+    V[j] = E2[j] / E0[j];
+    m[j] += (double)w->tfirst[j];
+  }
+}
+
+/* Poisson profile log-likelihood at r without its constant terms, and its
+ * first two derivatives. */
+static double pois_prof(const win_t *w, double r, double *d1, double *d2,
+                        double *b) {
+  double lE[7], m[7], V[7];
+  pois_moments(w, r, lE, m, V);
+  double l = r * w->T, g = w->T, h = 0.0;
+  for (int j = 0; j < w->nc; j++) {
+    l -= w->Y[j] * lE[j];
+    g -= w->Y[j] * m[j];
+    h += w->Y[j] * V[j];
+    if (b)
+      b[j] = log(w->Y[j]) - lE[j];
+  }
+  if (d1)
+    *d1 = g;
+  if (d2)
+    *d2 = -h;
+  return l;
+}
+
+/* Solve l_p'(r) = 0 by Newton safeguarded with a bracket.  Returns the
+ * number of iterations, or -1 without convergence. */
+static int pois_solve(const win_t *w, double r0, int maxit, double tol,
+                      double *r_out, double *h_out) {
+  double r = isfinite(r0) ? r0 : 0.0;
+  double lo = -INFINITY, hi = INFINITY;
+  for (int it = 1; it <= maxit; it++) {
+    double g, d2;
+    pois_prof(w, r, &g, &d2, NULL);
+    double h = -d2;
+    if (!(h > 0.0) || !isfinite(g))
+      return -1;
+    if (g > 0.0)
+      lo = r > lo ? r : lo;
+    else
+      hi = r < hi ? r : hi;
+    double step = g / h;
+    double lam2 = g * step;
+    if (step > 0.5)
+      step = 0.5;
+    else if (step < -0.5)
+      step = -0.5;
+    double rn = r + step;
+    if (!(rn > lo && rn < hi) && isfinite(lo) && isfinite(hi))
+      rn = 0.5 * (lo + hi);
+    r = rn;
+    if (lam2 < tol) {
+      pois_prof(w, r, NULL, &d2, NULL);
+      *r_out = r;
+      *h_out = -d2;
+      return it;
+    }
+  }
+  return -1;
+}
+
+/* ------------------------------------------------------------------ */
+/* NB2                                                                 */
+/* ------------------------------------------------------------------ */
+
+typedef struct {
+  double r;
+  double b[7];
+  double theta;
+  int capped;
+  int iter;
+} nbpar;
+
+/* Newton on (r, b) at fixed theta; r held fixed if fixr.  Returns
+ * iterations or -1. */
+static int nb_beta(const win_t *w, nbpar *p, int fixr, int maxit, double tol) {
+  int nc = w->nc;
+  double th = p->theta;
+  double lprev = -INFINITY;
+  nbpar prev = *p;
+  double step_r = 0.0, step_b[7] = {0};
+  int halvings = 0;
+  for (int it = 1; it <= maxit * 4; it++) {
+    double G[7] = {0}, H[7] = {0}, Hr[7] = {0}, gr = 0.0, Hrr = 0.0;
+    ksum l = {0, 0};
+    for (size_t t = 0; t < w->n; t++) {
+      double y = w->y[t];
+      if (tf_isnan(y))
+        continue;
+      int j = cls(w, t);
+      double tt = (double)t;
+      double eta = offv(w, t) + p->b[j] + p->r * tt;
+      double mu = exp(eta);
+      double den = th + mu;
+      double s = th * (y - mu) / den;
+      double h = th * mu * (th + y) / (den * den);
+      ks_add(&l, y * eta - (y + th) * log1p(mu / th));
+      G[j] += s;
+      H[j] += h;
+      Hr[j] += h * tt;
+      gr += s * tt;
+      Hrr += h * tt * tt;
+    }
+    double lv = ks_val(&l);
+    if (!isfinite(lv))
+      return -1;
+    if (lv < lprev - 1e-12 * fabs(lprev) && halvings < 40) {
+      /* backtrack from the previous point */
+      halvings++;
+      double f = ldexp(1.0, -halvings);
+      p->r = prev.r + f * step_r;
+      for (int j = 0; j < nc; j++)
+        p->b[j] = prev.b[j] + f * step_b[j];
+      continue;
+    }
+    halvings = 0;
+    double dr = 0.0, db[7];
+    if (!fixr) {
+      double sch = Hrr, rhs = gr;
+      for (int j = 0; j < nc; j++) {
+        if (!(H[j] > 0.0))
+          return -1;
+        sch -= Hr[j] * Hr[j] / H[j];
+        rhs -= Hr[j] * G[j] / H[j];
+      }
+      if (!(sch > 0.0))
+        return -1;
+      dr = rhs / sch;
+    }
+    double lam2 = dr * gr;
+    for (int j = 0; j < nc; j++) {
+      if (!(H[j] > 0.0))
+        return -1;
+      db[j] = (G[j] - Hr[j] * dr) / H[j];
+      lam2 += db[j] * G[j];
+    }
+    prev = *p;
+    lprev = lv;
+    /* limit wild steps on the log scale */
+    double mx = fabs(dr) * (double)w->n;
+    for (int j = 0; j < nc; j++)
+      if (fabs(db[j]) > mx)
+        mx = fabs(db[j]);
+    double f = mx > 5.0 ? 5.0 / mx : 1.0;
+    step_r = f * dr;
+    for (int j = 0; j < nc; j++)
+      step_b[j] = f * db[j];
+    p->r += step_r;
+    for (int j = 0; j < nc; j++)
+      p->b[j] += step_b[j];
+    if (lam2 < tol && f == 1.0)
+      return it;
+  }
+  return -1;
+}
+
+/* Newton on tau = log theta at fixed mu (MASS theta.ml score and
+ * information).  Returns the change in tau, NAN on failure; *dec gets the
+ * Newton decrement in tau at the start (log-likelihood units). */
+static double nb_theta(const win_t *w, nbpar *p, const double *mu,
+                       double *dec) {
+  double tau0 = log(p->theta), tau = tau0;
+  const double taucap = log(TF_THETA_CAP);
+  p->capped = 0;
+  for (int it = 0; it < 60; it++) {
+    double th = exp(tau);
+    ksum S = {0, 0}, D = {0, 0};
+    size_t k = 0;
+    for (size_t t = 0; t < w->n; t++) {
+      double y = w->y[t];
+      if (tf_isnan(y))
+        continue;
+      double m = mu[k++];
+      double d1, d2;
+      psidiff(th, y, &d1, &d2);
+      ks_add(&S, d1 - log1p(m / th) + (m - y) / (m + th));
+      /* dS/dtheta */
+      ks_add(&D, -d2 + m / (th * (th + m)) - (m - y) / ((m + th) * (m + th)));
+    }
+    double s = ks_val(&S), ds = ks_val(&D);
+    double g = th * s;                 /* dl/dtau   */
+    double hh = th * s + th * th * ds; /* d2l/dtau2 */
+    double step;
+    if (hh < 0.0)
+      step = -g / hh;
+    else
+      step = g > 0.0 ? 1.0 : -1.0;
+    if (it == 0)
+      *dec = hh < 0.0 ? -g * g / hh : INFINITY;
+    if (tau >= taucap && g > 0.0) {
+      p->capped = 1;
+      tau = taucap;
+      break;
+    }
+    if (step > 3.0)
+      step = 3.0;
+    if (step < -3.0)
+      step = -3.0;
+    double tn = tau + step;
+    if (tn >= taucap) {
+      if (tau >= taucap) {
+        p->capped = 1;
+        tau = taucap;
+        break;
+      }
+      tn = taucap;
+    }
+    if (tn < -25.0)
+      tn = -25.0;
+    double dt = tn - tau;
+    tau = tn;
+    if (fabs(dt) < 1e-11)
+      break;
+    if (!isfinite(tau))
+      return NAN;
+  }
+  if (tau >= taucap) {
+    tau = taucap;
+    p->capped = 1;
+  }
+  p->theta = exp(tau);
+  return tau - tau0;
+}
+
+/* Fill mu for the present days (in order). */
+static void nb_mu(const win_t *w, const nbpar *p, double *mu) {
+  size_t k = 0;
+  for (size_t t = 0; t < w->n; t++) {
+    if (tf_isnan(w->y[t]))
+      continue;
+    mu[k++] = exp(offv(w, t) + p->b[cls(w, t)] + p->r * (double)t);
+  }
+}
+
+/* Full NB2 fit by alternation.  mu is scratch of w->used doubles.  Returns
+ * 0 or -1 (no convergence). */
+static int nb_fit(const win_t *w, nbpar *p, int fixr, int maxit, double tol,
+                  double *mu) {
+  int total = 0;
+  for (int outer = 0; outer < 4 * maxit; outer++) {
+    int it = nb_beta(w, p, fixr, maxit, tol);
+    if (it < 0)
+      return -1;
+    total += it;
+    nb_mu(w, p, mu);
+    double dec = INFINITY;
+    double dt = nb_theta(w, p, mu, &dec);
+    if (tf_isnan(dt))
+      return -1;
+    /* stationary in beta (no Newton step needed beyond the first) and in
+     * theta (tiny step, or a Newton decrement below the tolerance, which
+     * covers the flat likelihood near the cap) */
+    if (it <= 1 && (fabs(dt) < 1e-10 || dec < tol * 1e-2 ||
+                    (p->capped && fabs(dt) < 1e-6))) {
+      p->iter = total;
+      return 0;
+    }
+  }
+  return -1;
+}
+
+/* Full NB2 log-likelihood (lgamma terms included, as statsmodels' llf). */
+static double nb_loglik(const win_t *w, const nbpar *p) {
+  ksum l = {0, 0};
+  double th = p->theta;
+  for (size_t t = 0; t < w->n; t++) {
+    double y = w->y[t];
+    if (tf_isnan(y))
+      continue;
+    double eta = offv(w, t) + p->b[cls(w, t)] + p->r * (double)t;
+    double mu = exp(eta);
+    double lt = log(th + mu);
+    ks_add(&l, lnpoch(th, y) - lfact(y) - th * log1p(mu / th) +
+                   (y > 0.0 ? y * (eta - lt) : 0.0));
+  }
+  return ks_val(&l);
+}
+
+/* Expected-information SE of r, Pearson X^2 and deviance at p. */
+static void nb_stats(const win_t *w, const nbpar *p, double *se,
+                     double *pearson, double *dev) {
+  int nc = w->nc;
+  double th = p->theta;
+  double I[7] = {0}, Ir[7] = {0};
+  ksum X2 = {0, 0}, D = {0, 0};
+  for (size_t t = 0; t < w->n; t++) {
+    double y = w->y[t];
+    if (tf_isnan(y))
+      continue;
+    int j = cls(w, t);
+    double mu = exp(offv(w, t) + p->b[j] + p->r * (double)t);
+    double W = th * mu / (th + mu);
+    I[j] += W;
+    Ir[j] += W * (double)t;
+    double v = mu + mu * mu / th;
+    ks_add(&X2, (y - mu) * (y - mu) / v);
+    double dd = (y > 0.0 ? y * log(y / mu) : 0.0) -
+                (y + th) * log1p((y - mu) / (mu + th));
+    ks_add(&D, 2.0 * dd);
+  }
+  double tbar[7];
+  for (int j = 0; j < nc; j++)
+    tbar[j] = Ir[j] / I[j];
+  double sch = 0.0;
+  for (size_t t = 0; t < w->n; t++) {
+    double y = w->y[t];
+    if (tf_isnan(y))
+      continue;
+    int j = cls(w, t);
+    double mu = exp(offv(w, t) + p->b[j] + p->r * (double)t);
+    double W = th * mu / (th + mu);
+    double d = (double)t - tbar[j];
+    sch += W * d * d;
+  }
+  *se = 1.0 / sqrt(sch);
+  *pearson = ks_val(&X2);
+  *dev = ks_val(&D);
+}
+
+/* Log of det(X'WX) (expected information of the regression parameters at
+ * fixed theta), up to a constant of the parametrisation. */
+static double nb_logdet(const win_t *w, const nbpar *p, int fixr) {
+  int nc = w->nc;
+  double th = p->theta;
+  double I[7] = {0}, Ir[7] = {0}, Irr = 0.0;
+  for (size_t t = 0; t < w->n; t++) {
+    double y = w->y[t];
+    if (tf_isnan(y))
+      continue;
+    int j = cls(w, t);
+    double tt = (double)t;
+    double mu = exp(offv(w, t) + p->b[j] + p->r * tt);
+    double W = th * mu / (th + mu);
+    I[j] += W;
+    Ir[j] += W * tt;
+    Irr += W * tt * tt;
+  }
+  double ld = 0.0, sch = Irr;
+  for (int j = 0; j < nc; j++) {
+    ld += log(I[j]);
+    sch -= Ir[j] * Ir[j] / I[j];
+  }
+  if (!fixr)
+    ld += log(sch > 0.0 ? sch : DBL_MIN);
+  return ld;
+}
+
+/* ------------------------------------------------------------------ */
+/* Profile-likelihood roots                                            */
+/* ------------------------------------------------------------------ */
+
+typedef struct {
+  const win_t *w;
+  int model;
+  int maxit;
+  double tol;
+  nbpar nb;    /* warm start for NB refits */
+  double *mu;  /* scratch */
+  int fail;
+} prof_ctx;
+
+/* Profile log-likelihood (up to a constant common to all r) and its
+ * derivative at r. */
+static double prof_eval(prof_ctx *c, double r, double *d1) {
+  if (c->model != TWOFOLD_MODEL_NEGBIN) {
+    double l = pois_prof(c->w, r, d1, NULL, NULL);
+    return l;
+  }
+  c->nb.r = r;
+  if (nb_fit(c->w, &c->nb, 1, c->maxit, c->tol, c->mu) != 0) {
+    c->fail = 1;
+    *d1 = NAN;
+    return NAN;
+  }
+  /* score for r at the constrained optimum */
+  double th = c->nb.theta, g = 0.0;
+  size_t k = 0;
+  for (size_t t = 0; t < c->w->n; t++) {
+    double y = c->w->y[t];
+    if (tf_isnan(y))
+      continue;
+    double mu = c->mu[k++];
+    (void)mu;
+    double m = exp(offv(c->w, t) + c->nb.b[cls(c->w, t)] + r * (double)t);
+    g += th * (y - m) / (th + m) * (double)t;
+  }
+  *d1 = g;
+  return nb_loglik(c->w, &c->nb);
+}
+
+/* Find r on side s (+1 or -1) of rhat with l_p(r) = target.  step0 is a
+ * first guess of the distance.  Returns NAN on failure. */
+static double prof_root(prof_ctx *c, double rhat, double lhat, double target,
+                        double s, double step0, const nbpar *at_hat) {
+  double a = rhat, fa = lhat - target; /* fa > 0 */
+  double d = step0;
+  double b = NAN, fb = NAN, db;
+  if (c->model == TWOFOLD_MODEL_NEGBIN)
+    c->nb = *at_hat;
+  for (int k = 0; k < 80; k++) {
+    double rb = rhat + s * d;
+    fb = prof_eval(c, rb, &db) - target;
+    if (c->fail || tf_isnan(fb))
+      return NAN;
+    if (fb < 0.0) {
+      b = rb;
+      break;
+    }
+    a = rb;
+    fa = fb;
+    d *= 2.0;
+  }
+  if (tf_isnan(b))
+    return NAN;
+  /* safeguarded Newton on [a, b]: f(a) > 0 > f(b) */
+  double x = a + (b - a) * fa / (fa - fb);
+  double tolx = 1e-11 * (fabs(step0) + fabs(rhat)) + 1e-15;
+  for (int k = 0; k < 200; k++) {
+    double dx;
+    double fx = prof_eval(c, x, &dx) - target;
+    if (c->fail || tf_isnan(fx))
+      return NAN;
+    if (fx == 0.0)
+      return x;
+    if (fx > 0.0) {
+      a = x;
+      fa = fx;
+    } else {
+      b = x;
+      fb = fx;
+    }
+    double xn = x - fx / dx;
+    double lo = a < b ? a : b, hi = a < b ? b : a;
+    if (!(xn > lo && xn < hi) || !isfinite(xn))
+      xn = 0.5 * (a + b);
+    if (fabs(xn - x) < tolx || fabs(b - a) < tolx)
+      return xn;
+    x = xn;
+  }
+  return x;
+}
+
+/* ------------------------------------------------------------------ */
+/* Cox-Reid adjusted theta                                             */
+/* ------------------------------------------------------------------ */
+
+/* Derivative in tau = log theta of the Cox-Reid adjusted profile
+ * log-likelihood (Cox & Reid 1987, JRSS B 49:1-39)
+ *     l_CR(theta) = l(beta_theta, theta) - 1/2 log det(X'W X),
+ * beta_theta the MLE at fixed theta: theta times the score in theta (the
+ * envelope theorem) minus half the derivative of the log determinant,
+ * taken by central differences (h = 1e-5) with beta refitted at each
+ * point.  p is updated to beta_theta. */
+static double cr_grad(const win_t *w, nbpar *p, double tau, int maxit,
+                      double tol, int *fail) {
+  const double h = 1e-5;
+  p->theta = exp(tau);
+  if (nb_beta(w, p, 0, maxit, tol) < 0) {
+    *fail = 1;
+    return NAN;
+  }
+  double th = p->theta;
+  ksum S = {0, 0};
+  for (size_t t = 0; t < w->n; t++) {
+    double y = w->y[t];
+    if (tf_isnan(y))
+      continue;
+    double m = exp(offv(w, t) + p->b[cls(w, t)] + p->r * (double)t);
+    double d1, d2;
+    psidiff(th, y, &d1, &d2);
+    ks_add(&S, d1 - log1p(m / th) + (m - y) / (m + th));
+  }
+  nbpar q = *p;
+  q.theta = exp(tau + h);
+  if (nb_beta(w, &q, 0, maxit, tol) < 0) {
+    *fail = 1;
+    return NAN;
+  }
+  double ldp = nb_logdet(w, &q, 0);
+  q = *p;
+  q.theta = exp(tau - h);
+  if (nb_beta(w, &q, 0, maxit, tol) < 0) {
+    *fail = 1;
+    return NAN;
+  }
+  double ldm = nb_logdet(w, &q, 0);
+  return th * ks_val(&S) - 0.5 * (ldp - ldm) / (2.0 * h);
+}
+
+/* The Cox-Reid adjusted theta: the root of cr_grad below the ML value,
+ * bracketed by stepping down, then refined by the Illinois variant of
+ * false position.  p (in: the ML fit) gets beta at the adjusted theta. */
+static double cr_theta(const win_t *w, nbpar *p, int maxit, double tol,
+                       int *fail) {
+  double b = log(p->theta);
+  double gb = cr_grad(w, p, b, maxit, tol, fail);
+  if (*fail)
+    return NAN;
+  if (gb >= 0.0)
+    return p->theta; /* at the cap (flat) or already stationary */
+  nbpar pa = *p;
+  double a = b, ga = gb, step = 0.5;
+  for (int k = 0;; k++) {
+    a = b - step;
+    if (a < -20.0 || k > 60) {
+      *fail = 1;
+      return NAN;
+    }
+    ga = cr_grad(w, &pa, a, maxit, tol, fail);
+    if (*fail)
+      return NAN;
+    if (ga > 0.0)
+      break;
+    b = a;
+    gb = ga;
+    *p = pa;
+    step *= 2.0;
+  }
+  /* g(a) > 0 > g(b), a < b */
+  int side = 0;
+  nbpar pc = pa;
+  for (int k = 0; k < 200; k++) {
+    double c = (a * gb - b * ga) / (gb - ga);
+    if (!(c > a && c < b))
+      c = 0.5 * (a + b);
+    double gc = cr_grad(w, &pc, c, maxit, tol, fail);
+    if (*fail)
+      return NAN;
+    if (gc == 0.0 || b - a < 1e-12) {
+      *p = pc;
+      return exp(c);
+    }
+    if (gc > 0.0) {
+      a = c;
+      ga = gc;
+      if (side == -1)
+        gb *= 0.5;
+      side = -1;
+    } else {
+      b = c;
+      gb = gc;
+      if (side == 1)
+        ga *= 0.5;
+      side = 1;
+    }
+    if (fabs(gc) < 1e-10 || b - a < 1e-11) {
+      *p = pc;
+      return exp(c);
+    }
+  }
+  *fail = 1;
+  return NAN;
+}
+
+/* ------------------------------------------------------------------ */
+/* The driver                                                          */
+/* ------------------------------------------------------------------ */
+
+static const char *const wdname[7] = {"Monday", "Tuesday", "Wednesday",
+                                      "Thursday", "Friday", "Saturday",
+                                      "Sunday"};
+
+static int fail(tf_gres *res, int code, const char *fmt, const char *arg,
+                double v) {
+  res->status = code;
+  char tmp[TF_ERRMSG_SIZE];
+  if (arg)
+    tf_msg_set(tmp, code, fmt, arg, v);
+  else
+    tf_msg_set(tmp, code, fmt, v);
+  memcpy(res->msg, tmp, sizeof tmp);
+  return code;
+}
+
+static void res_clear(tf_gres *res, int model, int nc, double level) {
+  res->status = 0;
+  res->flags = 0;
+  res->model = model;
+  res->nclass = nc;
+  res->level = level;
+  res->r = res->se = NAN;
+  for (int j = 0; j < 7; j++)
+    res->b[j] = NAN;
+  res->theta = res->theta_cr = NAN;
+  res->ll = res->dev = res->pearson = res->disp = NAN;
+  res->events = NAN;
+  res->used = res->missing = 0;
+  res->df = NAN;
+  res->iter = 0;
+  res->wald[0] = res->wald[1] = NAN;
+  res->prof[0] = res->prof[1] = NAN;
+  res->small[0] = res->small[1] = NAN;
+  res->msg[0] = '\0';
+}
+
+/* Scan the window, fill w and check the edge cases.  Returns 0 or a
+ * status (message set). */
+static int scan(win_t *w, tf_gres *res) {
+  int nc = w->nc;
+  ksum Y = {0, 0}, T = {0, 0}, YO = {0, 0};
+  ksum Yc[7];
+  memset(Yc, 0, sizeof Yc);
+  for (int j = 0; j < 7; j++) {
+    w->cnt[j] = 0;
+    w->tfirst[j] = w->tlast[j] = -1;
+    w->yfirst[j] = w->ylast[j] = 0.0;
+  }
+  w->used = 0;
+  for (size_t t = 0; t < w->n; t++) {
+    double y = w->y[t];
+    if (tf_isnan(y))
+      continue;
+    if (!tf_count_ok(y))
+      return fail(res, TWOFOLD_ECOUNT,
+                  "invalid count %s%g on window day (not a whole number in "
+                  "[0, 2^53])",
+                  "", y);
+    if (w->off && !isfinite(w->off[t]))
+      return fail(res, TWOFOLD_EINVAL, "offset %s%g is not finite", "",
+                  w->off[t]);
+    int j = cls(w, t);
+    w->used++;
+    w->cnt[j]++;
+    if (w->tfirst[j] < 0) {
+      w->tfirst[j] = (long)t;
+      w->yfirst[j] = y;
+    }
+    w->tlast[j] = (long)t;
+    w->ylast[j] = y;
+    ks_add(&Y, y);
+    ks_add(&Yc[j], y);
+    ks_add(&T, y * (double)t);
+    if (w->off)
+      ks_add(&YO, y * w->off[t]);
+  }
+  w->Ytot = ks_val(&Y);
+  w->T = ks_val(&T);
+  w->yo = ks_val(&YO);
+  for (int j = 0; j < nc; j++)
+    w->Y[j] = ks_val(&Yc[j]);
+  return 0;
+}
+
+/* The edge cases, from the window's sums. */
+static int checks(win_t *w, const struct twofold_fit_options *o,
+                  tf_gres *res, int need_extra) {
+  int nc = w->nc;
+  res->used = w->used;
+  res->missing = w->n - w->used;
+  res->events = w->Ytot;
+  if (res->missing > 0)
+    res->flags |= TWOFOLD_FIT_MISSING_DAYS;
+  if (w->Ytot > TF_LARGE_COUNTS)
+    res->flags |= TWOFOLD_FIT_LARGE_COUNTS;
+  if (w->used == 0)
+    return fail(res, TWOFOLD_ENODATA, "no day with data in the window%s%.0f",
+                "", 0.0);
+  if (nc == 7)
+    for (int j = 0; j < 7; j++)
+      if (w->cnt[j] == 0)
+        return fail(res, TWOFOLD_EWEEKDAY,
+                    "weekday effects are on but no %s is present in the "
+                    "window (%.0f days used); turn weekday effects off or "
+                    "widen the window",
+                    wdname[j], (double)w->used);
+  size_t p = (size_t)nc + 1;
+  if (w->used < p + 1 + (size_t)need_extra) {
+    char tmp[TF_ERRMSG_SIZE];
+    tf_msg_set(tmp, TWOFOLD_ENODATA,
+               "%zu days with data, need at least %zu for %zu parameters",
+               w->used, p + 1 + (size_t)need_extra, p + (size_t)need_extra);
+    memcpy(res->msg, tmp, sizeof tmp);
+    res->status = TWOFOLD_ENODATA;
+    return TWOFOLD_ENODATA;
+  }
+  if (w->Ytot == 0.0)
+    return fail(res, TWOFOLD_EZERO, "all %s%.0f counts in the window are zero",
+                "", (double)w->used);
+  if (w->Ytot < o->min_events)
+    return fail(res, TWOFOLD_EFEWEVENTS,
+                "%s%.0f events in the window, fewer than the minimum",
+                "", w->Ytot);
+  for (int j = 0; j < nc; j++)
+    if (w->Y[j] == 0.0)
+      return fail(res, TWOFOLD_ESEPARATION,
+                  "separation: no events on any %s in the window, so its "
+                  "weekday effect runs off to -infinity%.0f",
+                  wdname[j], 0.0);
+  int up = 1, down = 1;
+  for (int j = 0; j < nc; j++) {
+    if (w->ylast[j] != w->Y[j])
+      up = 0;
+    if (w->yfirst[j] != w->Y[j])
+      down = 0;
+  }
+  if (up)
+    return fail(res, TWOFOLD_ESEPARATION,
+                nc == 7 ? "separation: %szeros, then events only on the last "
+                          "day of each weekday; the growth rate runs off to "
+                          "+infinity%.0f"
+                        : "separation: %szeros, then events only on the last "
+                          "day; the growth rate runs off to +infinity%.0f",
+                "", 0.0);
+  if (down)
+    return fail(res, TWOFOLD_ESEPARATION,
+                nc == 7 ? "separation: %sevents only on the first day of each "
+                          "weekday, then zeros; the growth rate runs off to "
+                          "-infinity%.0f"
+                        : "separation: %sevents only on the first day, then "
+                          "zeros; the growth rate runs off to -infinity%.0f",
+                "", 0.0);
+  return 0;
+}
+
+/* Pearson X^2, deviance and log-likelihood of the Poisson fit. */
+static void pois_stats(const win_t *w, double r, const double *b,
+                       int want_ll, double *pearson, double *dev,
+                       double *ll) {
+  ksum X2 = {0, 0}, D = {0, 0}, L = {0, 0};
+  for (size_t t = 0; t < w->n; t++) {
+    double y = w->y[t];
+    if (tf_isnan(y))
+      continue;
+    double eta = offv(w, t) + b[cls(w, t)] + r * (double)t;
+    double mu = exp(eta);
+    ks_add(&X2, (y - mu) * (y - mu) / mu);
+    ks_add(&D, 2.0 * ((y > 0.0 ? y * log(y / mu) : 0.0) - (y - mu)));
+    if (want_ll)
+      ks_add(&L, y * eta - mu - lfact(y));
+  }
+  *pearson = ks_val(&X2);
+  *dev = ks_val(&D);
+  *ll = want_ll ? ks_val(&L) : NAN;
+}
+
+/* NB small-sample interval: Wald with the Cox-Reid adjusted theta and a
+ * t quantile on the residual degrees of freedom.  See growth.c. */
+static int nb_small(const win_t *w, const nbpar *ml, double level, double df,
+                    int maxit, double tol, double *lo, double *hi,
+                    double *theta_cr) {
+  int bad = 0;
+  nbpar p = *ml;
+  double th = cr_theta(w, &p, maxit, tol, &bad);
+  if (bad || !(th > 0.0))
+    return -1;
+  p.theta = th;
+  if (nb_beta(w, &p, 0, maxit, tol) < 0)
+    return -1;
+  double se, X2, dev;
+  nb_stats(w, &p, &se, &X2, &dev);
+  double q = tf_t_q(0.5 + level / 2.0, df);
+  *lo = p.r - q * se;
+  *hi = p.r + q * se;
+  *theta_cr = th;
+  return 0;
+}
+
+/* The Poisson and quasi-Poisson fit of a scanned and checked window. */
+static int pois_finish(win_t *w, const struct twofold_fit_options *o,
+                       unsigned want, double r0, tf_gres *res) {
+  int model = o->model;
+  double z = tf_norm_q(0.5 + o->level / 2.0);
+  double c = 0.5 * tf_chisq1_q(o->level);
+  double r, h;
+  int it = pois_solve(w, r0, o->max_iter, o->tol, &r, &h);
+  if (it < 0)
+    return fail(res, TWOFOLD_ENOCONV,
+                "Poisson fit did not converge in %s%.0f iterations", "",
+                (double)o->max_iter);
+  double b[7];
+  double lhat = pois_prof(w, r, NULL, NULL, b);
+  res->r = r;
+  res->se = 1.0 / sqrt(h);
+  memcpy(res->b, b, sizeof b);
+  res->iter = it;
+  res->theta = INFINITY;
+  if (!w->geom || model == TWOFOLD_MODEL_QUASIPOISSON ||
+      (want & TF_WANT_LOGLIK)) {
+    pois_stats(w, r, b, (want & TF_WANT_LOGLIK) != 0, &res->pearson,
+               &res->dev, &res->ll);
+    res->disp = res->pearson / res->df;
+  }
+  double q = z, cc = c;
+  if (model == TWOFOLD_MODEL_QUASIPOISSON) {
+    res->se *= sqrt(res->disp);
+    q = tf_t_q(0.5 + o->level / 2.0, res->df);
+    cc = 0.5 * q * q * res->disp;
+  }
+  if (want & (TF_WANT_WALD | TF_WANT_SMALL)) {
+    res->wald[0] = res->r - q * res->se;
+    res->wald[1] = res->r + q * res->se;
+  }
+  if ((want & TF_WANT_PROFILE) ||
+      ((want & TF_WANT_SMALL) && model == TWOFOLD_MODEL_POISSON)) {
+    prof_ctx pc;
+    memset(&pc, 0, sizeof pc);
+    pc.w = w;
+    pc.model = model;
+    double st = q * res->se;
+    res->prof[0] = prof_root(&pc, r, lhat, lhat - cc, -1.0, st, NULL);
+    res->prof[1] = prof_root(&pc, r, lhat, lhat - cc, +1.0, st, NULL);
+    if (tf_isnan(res->prof[0]) || tf_isnan(res->prof[1]))
+      return fail(res, TWOFOLD_ENOCONV,
+                  "profile-likelihood interval search failed%s%.0f", "", 0.0);
+  }
+  /* Poisson: small-sample = profile (no nuisance dispersion);
+   * quasi-Poisson: small-sample = Wald with t_{n-p} (already). */
+  if (want & TF_WANT_SMALL) {
+    const double *v = model == TWOFOLD_MODEL_POISSON ? res->prof : res->wald;
+    res->small[0] = v[0];
+    res->small[1] = v[1];
+  }
+  return 0;
+}
+
+static void win_init(win_t *w, const struct twofold_fit_options *o,
+                     const double *y, const double *off, size_t n, int wd0) {
+  memset(w, 0, sizeof *w);
+  w->n = n;
+  w->y = y;
+  w->off = off;
+  w->wd0 = wd0;
+  w->nc = o->weekday ? 7 : 1;
+}
+
+int tf_growth_geom(const struct twofold_fit_options *o, const double *y,
+                   size_t n, int wd0, const double *Yk, double T,
+                   unsigned want, double r0, tf_gres *res) {
+  win_t w;
+  win_init(&w, o, y, NULL, n, wd0);
+  int nc = w.nc;
+  res_clear(res, o->model, nc, o->level);
+  res->wd0 = wd0;
+  w.geom = 1;
+  w.used = n;
+  w.T = T;
+  double Ytot = 0.0;
+  for (int k = 0; k < 7 && (size_t)k < n; k++)
+    Ytot += Yk[k];
+  w.Ytot = Ytot;
+  if (nc == 7) {
+    for (int k = 0; k < 7; k++) {
+      int j = (wd0 + k) % 7;
+      if ((size_t)k >= n) {
+        w.cnt[j] = 0;
+        continue;
+      }
+      size_t L = (n - (size_t)k + 6) / 7;
+      size_t last = (size_t)k + 7 * (L - 1);
+      w.cnt[j] = L;
+      w.L[j] = (double)L;
+      w.u0[j] = (double)k;
+      w.Y[j] = Yk[k];
+      w.tfirst[j] = k;
+      w.tlast[j] = (long)last;
+      w.yfirst[j] = y[k];
+      w.ylast[j] = y[last];
+    }
+  } else {
+    w.cnt[0] = n;
+    w.L[0] = (double)n;
+    w.u0[0] = 0.0;
+    w.Y[0] = Ytot;
+    w.tfirst[0] = 0;
+    w.tlast[0] = (long)n - 1;
+    w.yfirst[0] = y[0];
+    w.ylast[0] = y[n - 1];
+  }
+  int rc = checks(&w, o, res, 0);
+  if (rc)
+    return rc;
+  res->df = (double)(w.used - (size_t)nc - 1);
+  return pois_finish(&w, o, want, r0, res);
+}
+
+int tf_growth_core(const struct twofold_fit_options *o, const double *y,
+                   const double *off, size_t n, int wd0, unsigned want,
+                   const tf_gres *warm, tf_gres *res) {
+  int model = o->model;
+  win_t w;
+  win_init(&w, o, y, off, n, wd0);
+  int nc = w.nc;
+  res_clear(res, model, nc, o->level);
+  res->wd0 = wd0;
+  int rc = scan(&w, res);
+  if (rc == 0)
+    rc = checks(&w, o, res, model == TWOFOLD_MODEL_NEGBIN ? 1 : 0);
+  if (rc)
+    return rc;
+  const size_t p = (size_t)nc + 1;
+  res->df = (double)(w.used - p);
+  int wuse = warm && warm->status == 0 && warm->model == model &&
+             warm->nclass == nc && isfinite(warm->r);
+  if (model != TWOFOLD_MODEL_NEGBIN)
+    return pois_finish(&w, o, want, wuse ? warm->r : 0.0, res);
+
+  /* NB2: start from the Poisson fit (or the warm start) */
+  double z = tf_norm_q(0.5 + o->level / 2.0);
+  double c = 0.5 * tf_chisq1_q(o->level);
+  double *mu = malloc(w.used * sizeof *mu);
+  if (mu == NULL)
+    return fail(res, TWOFOLD_ENOMEM, "out of memory%s%.0f", "", 0.0);
+  nbpar np;
+  memset(&np, 0, sizeof np);
+  int it = 0;
+  if (wuse && isfinite(warm->theta) && warm->theta > 0.0) {
+    np.r = warm->r;
+    memcpy(np.b, warm->b, sizeof np.b);
+    np.theta = warm->theta;
+  } else {
+    double r, h;
+    it = pois_solve(&w, 0.0, o->max_iter, o->tol, &r, &h);
+    if (it < 0) {
+      free(mu);
+      return fail(res, TWOFOLD_ENOCONV,
+                  "Poisson start did not converge in %s%.0f iterations", "",
+                  (double)o->max_iter);
+    }
+    np.r = r;
+    pois_prof(&w, r, NULL, NULL, np.b);
+    /* moment start, as MASS: theta0 = n / sum (y/mu - 1)^2 */
+    nb_mu(&w, &np, mu);
+    double s = 0.0;
+    size_t k = 0;
+    for (size_t t = 0; t < n; t++) {
+      if (tf_isnan(y[t]))
+        continue;
+      double d = y[t] / mu[k++] - 1.0;
+      s += d * d;
+    }
+    double th0 = (double)w.used / s;
+    if (!(th0 > 0.0) || th0 > TF_THETA_CAP)
+      th0 = TF_THETA_CAP;
+    np.theta = th0;
+  }
+  if (nb_fit(&w, &np, 0, o->max_iter, o->tol, mu) != 0) {
+    free(mu);
+    return fail(res, TWOFOLD_ENOCONV,
+                "negative binomial fit did not converge (theta %s%g)", "",
+                np.theta);
+  }
+  res->r = np.r;
+  memcpy(res->b, np.b, sizeof np.b);
+  res->theta = np.theta;
+  res->iter = it + np.iter;
+  if (np.capped)
+    res->flags |= TWOFOLD_FIT_THETA_CAPPED;
+  nb_stats(&w, &np, &res->se, &res->pearson, &res->dev);
+  res->disp = res->pearson / res->df;
+  int need_ll = (want & (TF_WANT_LOGLIK | TF_WANT_PROFILE)) != 0;
+  double lhat = need_ll ? nb_loglik(&w, &np) : NAN;
+  res->ll = (want & TF_WANT_LOGLIK) ? lhat : NAN;
+  if (want & TF_WANT_WALD) {
+    res->wald[0] = res->r - z * res->se;
+    res->wald[1] = res->r + z * res->se;
+  }
+  if (want & TF_WANT_PROFILE) {
+    prof_ctx pc;
+    memset(&pc, 0, sizeof pc);
+    pc.w = &w;
+    pc.model = model;
+    pc.maxit = o->max_iter;
+    pc.tol = o->tol;
+    pc.mu = mu;
+    double st = z * res->se;
+    res->prof[0] = prof_root(&pc, np.r, lhat, lhat - c, -1.0, st, &np);
+    res->prof[1] = prof_root(&pc, np.r, lhat, lhat - c, +1.0, st, &np);
+    if (tf_isnan(res->prof[0]) || tf_isnan(res->prof[1])) {
+      free(mu);
+      return fail(res, TWOFOLD_ENOCONV,
+                  "profile-likelihood interval search failed%s%.0f", "", 0.0);
+    }
+  }
+  if (want & TF_WANT_SMALL) {
+    if (nb_small(&w, &np, o->level, res->df, o->max_iter, o->tol,
+                 &res->small[0], &res->small[1], &res->theta_cr) != 0) {
+      free(mu);
+      return fail(res, TWOFOLD_ENOCONV,
+                  "small-sample interval: adjusted theta search failed%s%.0f",
+                  "", 0.0);
+    }
+  }
+  free(mu);
+  return 0;
+}

@@ -1,0 +1,91 @@
+/* SPDX-License-Identifier: GPL-3.0-or-later */
+/* Private interface of the growth module (lib/growth.c, lib/growth_fit.c,
+ * lib/roll.c); not installed. */
+#ifndef TWOFOLD_GROWTH_INTERNAL_H
+#define TWOFOLD_GROWTH_INTERNAL_H
+
+#include "internal.h"
+
+#include <stddef.h>
+
+/* Cap on the NB2 shape theta: above it the fit is reported as Poisson-like
+ * (TWOFOLD_FIT_THETA_CAPPED). */
+#define TF_THETA_CAP 1e8
+/* Event totals beyond this use (and flag) compensated summation paths. */
+#define TF_LARGE_COUNTS 1e15
+
+struct twofold_fit_options {
+  int model;
+  double level;
+  int weekday;
+  int interval;
+  double min_events;
+  int max_iter;
+  double tol;
+};
+
+/* Which intervals tf_growth_core computes (bit mask). */
+#define TF_WANT_WALD 0x1u
+#define TF_WANT_PROFILE 0x2u
+#define TF_WANT_SMALL 0x4u
+#define TF_WANT_ALL 0x7u
+#define TF_WANT_LOGLIK 0x8u /* loglik and deviance (lgamma terms) */
+
+/* Numerical result of one window.  Internally the weekday effects are
+ * carried as one log-level b[j] per weekday class j (class 0 = ISO
+ * weekday 1, or one class when weekday effects are off), which spans the
+ * same model as intercept + six sum-to-zero effects. */
+typedef struct tf_gres {
+  int status;
+  unsigned flags;
+  int model;
+  int nclass;  /* 7 with weekday effects, else 1 */
+  int wd0;     /* class of the window's day 0 (0..6) */
+  double level;
+  double r, se; /* se: model-based (quasi-Poisson: scaled) */
+  double b[7];
+  double theta;     /* INFINITY for Poisson models */
+  double theta_cr;  /* Cox-Reid adjusted theta used by the small interval */
+  double ll, dev, pearson, disp;
+  double events;
+  size_t used, missing;
+  double df;
+  int iter;
+  double wald[2], prof[2], small[2];
+  char msg[TF_ERRMSG_SIZE];
+} tf_gres;
+
+/* Fit one window: y[0..n-1] (NaN missing), off NULL or n log-offsets,
+ * wd0 = ISO weekday of y[0] minus 1.  warm (may be NULL) holds a previous
+ * successful estimate of the same model used as the starting point.
+ * Returns res->status. */
+int tf_growth_core(const struct twofold_fit_options *o, const double *y,
+                   const double *off, size_t n, int wd0, unsigned want,
+                   const tf_gres *warm, tf_gres *res);
+
+/* The Poisson fit of a complete window without offset from its sums
+ * (lib/roll.c): Yk[k] is the sum of y[k], y[k+7], ... inside the window,
+ * T = sum t*y[t]; y points at the window's first day (its values are
+ * read for the separation checks and the quasi-Poisson dispersion). */
+int tf_growth_geom(const struct twofold_fit_options *o, const double *y,
+                   size_t n, int wd0, const double *Yk, double T,
+                   unsigned want, double r0, tf_gres *res);
+
+/* Copy the interval of the given kind (DEFAULT resolved through
+ * opt_kind, the options' kind). */
+int tf_interval_pick(const tf_gres *res, int kind, int opt_kind, double *lo,
+                     double *hi);
+
+/* Closed-form geometric moments (METHODS.md B2): for weights e^{b k},
+ * k = 0..L-1, log E0 = log sum e^{bk}, m = mean k, v = variance of k. */
+void tf_geom(double b, double L, double *logE0, double *m, double *v);
+
+/* Quantile helpers on validated arguments. */
+double tf_norm_q(double p);          /* standard normal quantile, p in (0,1) */
+double tf_t_q(double p, double df);  /* Student t quantile, df > 0 */
+double tf_chisq1_q(double level);    /* chi-square(1) quantile */
+
+/* The library's resolution of TWOFOLD_INTERVAL_DEFAULT. */
+#define TF_DEFAULT_INTERVAL TWOFOLD_INTERVAL_SMALL
+
+#endif
