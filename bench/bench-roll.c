@@ -4,11 +4,12 @@
  *
  *   bench-roll [--seconds S] [--window W]
  *
- * For the Poisson and the negative binomial model (default fit options
- * otherwise: weekday effects on, trailing windows), calls
+ * For the Poisson and the negative binomial model, each with the default
+ * interval and with the Wald interval (default fit options otherwise:
+ * weekday effects on, trailing windows), calls
  * twofold_growth_roll on the cases of the benchmark districts (benchgen.c,
  * 730 days each), one district after the other on one thread, until about
- * S CPU seconds (default 3) have been spent or all 10,000 districts are
+ * S CPU seconds (default 2) per variant have been spent or all 10,000 districts are
  * done.  A series of n days holds n - W + 1 whole windows; windows per
  * second is their number over the time spent in twofold_growth_roll, per
  * CPU second of this thread (CLOCK_THREAD_CPUTIME_ID) and per wall second
@@ -24,7 +25,8 @@
 #include <stdlib.h>
 #include <string.h>
 
-static int run_model(int model, const char *key, double seconds, size_t w) {
+static int run_model(int model, int interval, const char *key,
+                     double seconds, size_t w) {
   const size_t n = BENCHGEN_DAYS;
   twofold_fit_options *o = NULL;
   double *y = malloc(n * sizeof *y), *rate = malloc(n * sizeof *rate);
@@ -33,7 +35,8 @@ static int run_model(int model, const char *key, double seconds, size_t w) {
   int rc = 1;
   if (y == NULL || rate == NULL || lo == NULL || hi == NULL ||
       status == NULL || twofold_fit_options_new(&o) != 0 ||
-      twofold_fit_options_set_model(o, model) != 0) {
+      twofold_fit_options_set_model(o, model) != 0 ||
+      twofold_fit_options_set_interval(o, interval) != 0) {
     fputs("bench-roll: out of memory or bad options\n", stderr);
     goto done;
   }
@@ -63,7 +66,7 @@ static int run_model(int model, const char *key, double seconds, size_t w) {
         failed++;
     }
   }
-  printf("roll %-7s w=%zu: %zu series, %.0f windows (%.1f%% without an "
+  printf("roll %-12s w=%zu: %zu series, %.0f windows (%.1f%% without an "
          "estimate); CPU %.3f s, wall %.3f s; %.3g windows/s per core "
          "(CPU), %.3g windows/s (wall)\n",
          key, w, series, windows, 100.0 * failed / windows, cpu, wall,
@@ -94,7 +97,7 @@ done:
 }
 
 int main(int argc, char **argv) {
-  double seconds = 3.0;
+  double seconds = 2.0;
   size_t w = 21;
   for (int i = 1; i < argc; i++) {
     if (strcmp(argv[i], "--seconds") == 0 && i + 1 < argc) {
@@ -115,7 +118,13 @@ int main(int argc, char **argv) {
       return 2;
     }
   }
-  int rc = run_model(TWOFOLD_MODEL_POISSON, "poisson", seconds, w);
-  rc |= run_model(TWOFOLD_MODEL_NEGBIN, "negbin", seconds, w);
+  int rc = run_model(TWOFOLD_MODEL_POISSON, TWOFOLD_INTERVAL_DEFAULT,
+                     "poisson", seconds, w);
+  rc |= run_model(TWOFOLD_MODEL_POISSON, TWOFOLD_INTERVAL_WALD,
+                  "poisson-wald", seconds, w);
+  rc |= run_model(TWOFOLD_MODEL_NEGBIN, TWOFOLD_INTERVAL_DEFAULT, "negbin",
+                  seconds, w);
+  rc |= run_model(TWOFOLD_MODEL_NEGBIN, TWOFOLD_INTERVAL_WALD, "negbin-wald",
+                  seconds, w);
   return rc;
 }

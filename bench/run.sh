@@ -45,7 +45,7 @@ note "reading (twofold_read_file)"
 "$builddir/bench/bench-read" gzip="$gz" plain="$plain" | collect || status=1
 
 note "rolling growth fits (twofold_growth_roll, one thread)"
-"$builddir/bench/bench-roll" --seconds 3 | collect || status=1
+"$builddir/bench/bench-roll" --seconds 2 | collect || status=1
 
 # A command under /usr/bin/time -v: wall, user+sys and peak memory.
 run_timed() { # key outfile command...
