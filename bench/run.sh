@@ -33,6 +33,8 @@ if [ ! -x "$TIME" ]; then
   TIME=
 fi
 
+get() { awk -F'\t' -v k="$1" '$1 == "result" && $2 == k {v = $3} END {print v}' "$results.raw"; }
+: >"$results.raw"
 note() { printf '\n== %s\n' "$*"; }
 # Keep the "result" lines of a program's output; show the rest.
 collect() { tee -a "$results.raw" | { grep -v '^result	' || true; }; }
@@ -136,7 +138,6 @@ for p in "$@"; do
 done
 
 load_after=$(uptime)
-get() { awk -F'\t' -v k="$1" '$1 == "result" && $2 == k {v = $3} END {print v}' "$results.raw"; }
 
 # figure | measured | CPU time | target | met
 row() { # label value unit cpu target-op target-value
