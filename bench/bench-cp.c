@@ -18,7 +18,8 @@
  *    segments: the largest absolute difference in P(change on day i), in
  *    the posterior mean growth rate, and in the log evidence (skipped,
  *    saying so, when a pruned run alone takes over a second).
- * --part runs one of the three (offline, online, prune; default all).
+ * --part runs one of the three (offline, online, prune; default all);
+ * --no-kink leaves kink segments out of the pruning check.
  * Lines "result<TAB>key<TAB>value" carry the figures to bench/run.sh.
  * Prints figures, never judges them.
  */
@@ -193,6 +194,7 @@ static int pruning(twofold_changes *ch, twofold_cp_options *o, int kind) {
 int main(int argc, char **argv) {
   double seconds = 2.0;
   const char *part = "all";
+  int kink_prune = 1;
   for (int i = 1; i < argc; i++) {
     if (strcmp(argv[i], "--seconds") == 0 && i + 1 < argc) {
       seconds = atof(argv[++i]);
@@ -200,6 +202,8 @@ int main(int argc, char **argv) {
         fputs("bench-cp: --seconds wants (0, 600]\n", stderr);
         return 2;
       }
+    } else if (strcmp(argv[i], "--no-kink") == 0) {
+      kink_prune = 0;
     } else if (strcmp(argv[i], "--part") == 0 && i + 1 < argc) {
       part = argv[++i];
       if (strcmp(part, "offline") != 0 && strcmp(part, "online") != 0 &&
@@ -210,7 +214,7 @@ int main(int argc, char **argv) {
       }
     } else {
       fputs("usage: bench-cp [--seconds S] [--part offline|online|prune|all]"
-            "\n",
+            " [--no-kink]\n",
             stderr);
       return 2;
     }
@@ -231,7 +235,7 @@ int main(int argc, char **argv) {
   if (all || strcmp(part, "online") == 0)
     rc |= online(o);
   if (all || strcmp(part, "prune") == 0)
-    for (int k = 2; k >= 0; k--)
+    for (int k = 2; k >= (kink_prune ? 0 : 1); k--)
       rc |= pruning(ch, o, kinds[k]);
 done:
   twofold_changes_free(ch);

@@ -92,7 +92,14 @@ fi
 
 note "changepoints (library, one thread)"
 for part in offline online prune; do
-  "$builddir/bench/bench-cp" --seconds 2 --part $part | collect ||
+  opt=
+  # the kink pruning check costs two kink runs; skip it when one is slow
+  if [ $part = prune ] && awk -v ms="$(get offline.kink.cpu_ms)" \
+    'BEGIN {exit !(ms + 0 > 1000)}'; then
+    opt=--no-kink
+    echo "pruning kink  SKIPPED: one kink run takes $(get offline.kink.cpu_ms) ms CPU"
+  fi
+  "$builddir/bench/bench-cp" --seconds 2 --part $part $opt | collect ||
     { echo "bench-cp --part $part: FAILED (exit status $?)"; status=1; }
 done
 
@@ -104,12 +111,12 @@ if "$breaks" --version >/dev/null 2>&1; then
     threads=--threads=2
   fi
   # The whole file when the offline figure says it fits in about four
-  # minutes; else the first K districts only, and the wall time for all
-  # 10,000 extrapolated in proportion.
+  # minutes; else the first K districts only (about 20 CPU seconds), and
+  # the times for all 10,000 extrapolated in proportion.
   ms=$(get offline.kink.cpu_ms)
   k=$(awk -v ms="${ms:-0}" 'BEGIN {
     if (ms * 10001 / 2 / 1000 <= 240) print 0;
-    else { k = int(60 * 2 * 1000 / ms); print (k < 4 ? 4 : k) } }')
+    else { k = int(20 * 1000 / ms); print (k < 2 ? 2 : k) } }')
   if [ "$k" -eq 0 ]; then
     run_timed breaks "$datadir/breaks.out" "$breaks" $threads --format=tsv "$gz"
   else
@@ -143,45 +150,45 @@ load_after=$(uptime)
 row() { # label value unit cpu target-op target-value
   local label=$1 value=$2 unit=$3 cpu=$4 op=$5 target=$6 met
   if [ -z "$value" ]; then
-    printf '| %-44s | %-20s | %-12s | %-12s | %-4s |\n' "$label" "not measured" "" "$op $target" "—"
+    printf '| %-50s | %-20s | %-12s | %-12s | %-4s |\n' "$label" "not measured" "" "$op $target" "-"
     return
   fi
   case $op in
-    "≥") met=$(awk -v v="$value" -v t="$target" 'BEGIN {print (v >= t) ? "yes" : "no"}') ;;
-    "≤") met=$(awk -v v="$value" -v t="$target" 'BEGIN {print (v <= t) ? "yes" : "no"}') ;;
+    ">=") met=$(awk -v v="$value" -v t="$target" 'BEGIN {print (v >= t) ? "yes" : "no"}') ;;
+    "<=") met=$(awk -v v="$value" -v t="$target" 'BEGIN {print (v <= t) ? "yes" : "no"}') ;;
     "<") met=$(awk -v v="$value" -v t="$target" 'BEGIN {print (v < t) ? "yes" : "no"}') ;;
-    *) met="—" ;;
+    *) met="-" ;;
   esac
-  printf '| %-44s | %-20s | %-12s | %-12s | %-4s |\n' "$label" \
+  printf '| %-50s | %-20s | %-12s | %-12s | %-4s |\n' "$label" \
     "$(awk -v v="$value" -v u="$unit" 'BEGIN {printf (v >= 1e5 ? "%.3g %s" : "%.4g %s"), v, u}')" \
     "$cpu" "$op $target" "$met"
 }
 cpu_of() { local v; v=$(get "$1"); [ -n "$v" ] && printf '%.2f s' "$v"; }
 
 note "summary (load at start: ${load_before#*load average: }; at end: ${load_after#*load average: })"
-printf '| %-44s | %-20s | %-12s | %-12s | %-4s |\n' "figure" "measured" "CPU time" "target" "met"
-printf '|%s|%s|%s|%s|%s|\n' "----------------------------------------------" "----------------------" "--------------" "--------------" "------"
+printf '| %-50s | %-20s | %-12s | %-12s | %-4s |\n' "figure" "measured" "CPU time" "target" "met"
+printf '|%s|%s|%s|%s|%s|\n' "----------------------------------------------------" "----------------------" "--------------" "--------------" "------"
 row "read gzip, rows/s (wall)" "$(get gzip.rows_per_s)" "rows/s" "$(cpu_of gzip.cpu_s)" "" ""
 row "read plain CSV, rows/s (wall)" "$(get plain.rows_per_s)" "rows/s" "$(cpu_of plain.cpu_s)" "" ""
-row "rolling Poisson w=21, windows/s per core" "$(get poisson.windows_per_cpu_s)" "/s" "$(cpu_of poisson.cpu_s)" "≥" 5e6
-row "rolling NB w=21, windows/s per core" "$(get negbin.windows_per_cpu_s)" "/s" "$(cpu_of negbin.cpu_s)" "≥" 2e5
+row "rolling Poisson w=21, windows/s per core" "$(get poisson.windows_per_cpu_s)" "/s" "$(cpu_of poisson.cpu_s)" ">=" 5e6
+row "rolling NB w=21, windows/s per core" "$(get negbin.windows_per_cpu_s)" "/s" "$(cpu_of negbin.cpu_s)" ">=" 2e5
 row "twofold, whole file, wall" "$(get twofold.wall_s)" "s" "$(cpu_of twofold.cpu_s)" "<" 3
 row "twofold, peak memory" "$(get twofold.peak_mb)" "MB" "" "<" 200
-row "offline posterior, 730 days (kink), CPU" "$(get offline.kink.cpu_ms)" "ms" "" "≤" 10
-row "offline posterior, 730 days (jump), CPU" "$(get offline.jump.cpu_ms)" "ms" "" "≤" 10
-row "offline posterior, 730 days (level), CPU" "$(get offline.level.cpu_ms)" "ms" "" "≤" 10
+row "offline posterior, 730 days (kink), CPU" "$(get offline.kink.cpu_ms)" "ms" "" "<=" 10
+row "offline posterior, 730 days (jump), CPU" "$(get offline.jump.cpu_ms)" "ms" "" "<=" 10
+row "offline posterior, 730 days (level), CPU" "$(get offline.level.cpu_ms)" "ms" "" "<=" 10
 if [ -n "$(get breaks.extrapolated_wall_s)" ]; then
   k=$(sed -n 's/^breaks_sub_regions=//p' "$results.k")
-  row "twofold-breaks, 10,000 regions (from $k), 2 thr" "$(get breaks.extrapolated_wall_s)" "s" "$(cpu_of breaks.extrapolated_cpu_s)" "≤" 120
-  row "twofold-breaks, peak memory ($k regions)" "$(get breaks_sub.peak_mb)" "MB" "" "" "≤ 300 (all)"
+  row "twofold-breaks, 10,000 regions (from $k), 2 threads" "$(get breaks.extrapolated_wall_s)" "s" "$(cpu_of breaks.extrapolated_cpu_s)" "<=" 120
+  row "twofold-breaks, peak memory ($k regions)" "$(get breaks_sub.peak_mb)" "MB" "" "" "<= 300 (all)"
 else
-  row "twofold-breaks, 10,000 regions, 2 threads" "$(get breaks.wall_s)" "s" "$(cpu_of breaks.cpu_s)" "≤" 120
-  row "twofold-breaks, peak memory" "$(get breaks.peak_mb)" "MB" "" "≤" 300
+  row "twofold-breaks, 10,000 regions, 2 threads" "$(get breaks.wall_s)" "s" "$(cpu_of breaks.cpu_s)" "<=" 120
+  row "twofold-breaks, peak memory" "$(get breaks.peak_mb)" "MB" "" "<=" 300
 fi
-row "online update per region-day (jump), CPU" "$(get online.cpu_us)" "µs" "" "≤" 20
-row "pruning vs exact, max |ΔP(change)| (kink)" "$(get prune.kink.max_dp)" "" "" "" ""
-row "pruning vs exact, max |ΔP(change)| (jump)" "$(get prune.jump.max_dp)" "" "" "" ""
-row "pruning vs exact, max |ΔP(change)| (level)" "$(get prune.level.max_dp)" "" "" "" ""
+row "online update per region-day (jump), CPU" "$(get online.cpu_us)" "us" "" "<=" 20
+row "pruning vs exact, max |dP(change)| (kink)" "$(get prune.kink.max_dp)" "" "" "" ""
+row "pruning vs exact, max |dP(change)| (jump)" "$(get prune.jump.max_dp)" "" "" "" ""
+row "pruning vs exact, max |dP(change)| (level)" "$(get prune.level.max_dp)" "" "" "" ""
 echo
 echo "Wall times depend on the load of the machine; CPU times less so."
 exit $status
