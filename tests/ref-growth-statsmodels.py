@@ -62,7 +62,7 @@ def keep(y):
 
 def pois_fit(y, X, off, scale=None):
     m = sm.GLM(y, X, family=sm.families.Poisson(), offset=off)
-    return m.fit(tol=1e-14, maxiter=500, scale=scale)
+    return m.fit(tol=1e-12, maxiter=100, scale=scale)
 
 
 def nb_glm(y, X, off, alpha):
@@ -149,7 +149,9 @@ def reference(w):
     cut = scipy.stats.chi2.ppf(LEVEL, 1) / 2
 
     global nb_profiles_done
-    if nb_profiles_done < NB_PROFILES:
+    # no profile for an underdispersed window (alpha -> 0): compared with
+    # the Poisson GLM below instead
+    if nb_profiles_done < NB_PROFILES and alpha > 1e-6:
         nb_profiles_done += 1
 
         def llf_at(rr):
@@ -164,7 +166,7 @@ def reference(w):
 def nb_se_at(ref, theta):
     g = sm.GLM(ref["_y"], ref["_X"],
                family=sm.families.NegativeBinomial(alpha=1.0 / theta),
-               offset=ref["_o"]).fit(tol=1e-14, maxiter=500)
+               offset=ref["_o"]).fit(tol=1e-12, maxiter=100)
     return g.params[1], g.bse[1], g.deviance, g.pearson_chi2 / g.df_resid
 
 
