@@ -296,6 +296,15 @@ double tf_seg_jump(const tf_cpdata *d, size_t s, size_t e, double *bio,
   double f = jump_f(d, s, e, c, Y, S1, b, &f1, &f2, &lbp);
   for (int it = 0; it < 60; it++) {
     double step = -f1 / f2;
+    if (fabs(step) < 1e-9 * (1 + fabs(b))) {
+      /* converged: take the Newton step without another evaluation; the
+       * quadratic model puts the mode at b + step (error O(L step^2)) and
+       * the maximum at f + f1 step / 2 (error O(|f2| L step^3) < 1e-10
+       * for the counts and lengths allowed); f2 and the level at b. */
+      b += step;
+      f += 0.5 * f1 * step;
+      break;
+    }
     double bn = b + step, f1n, f2n, lbn;
     double fn = jump_f(d, s, e, c, Y, S1, bn, &f1n, &f2n, &lbn);
     int h = 0;
