@@ -465,17 +465,23 @@ static int backward(twofold_changes *ch) {
   for (size_t t = n; t-- > 0;) {
     double acc = -INFINITY;
     size_t run = 0, e = t;
-    double b = d->rmean;
+    double b = d->rmean, bprev = NAN;
     ch->off[t] = ch->ncache;
     for (; e < n; e++) {
       size_t L = e - t + 1;
       double lg = seg_prior(ch, t, e);
       double lp = -INFINITY, v = 0;
       if (lg > -INFINITY) {
-        if (d->kind == TWOFOLD_CP_LEVEL)
+        if (d->kind == TWOFOLD_CP_LEVEL) {
           lp = tf_seg_level(d, t, e, NULL);
-        else
+        } else {
+          /* warm start: the modes of [t, e-2] and [t, e-1] extrapolated */
+          double b1 = b;
+          if (isfinite(bprev))
+            b = b + (b - bprev);
           lp = tf_seg_jump(d, t, e, &b, &v, NULL);
+          bprev = b1;
+        }
       }
       int rc = cache_push(ch, lp, b, v);
       if (rc)

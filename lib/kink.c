@@ -45,7 +45,7 @@ struct tf_kink {
   size_t *stop;  /* last candidate end per start */
   int Gmax;
   /* scratch */
-  double *T, *lE0, *bD, *lND, *row, *tmp, *ET, *rmax, *ev;
+  double *T, *lE0, *bD, *lND, *row, *tmp, *ET, *rmax, *ev, *colv;
   size_t ndmax;
 };
 
@@ -69,6 +69,7 @@ void tf_kink_free(struct tf_kink *k) {
   free(k->ET);
   free(k->rmax);
   free(k->ev);
+  free(k->colv);
   free(k);
 }
 
@@ -90,14 +91,48 @@ static void seg_T(const struct twofold_changes *ch, struct tf_kink *k,
   long dmin = k->k0[j1] - k->k0[s] - (Ga - 1);
   int nd = Ga + Gb - 1;
   double phi = d->phi, lL = log(L);
+  /* E0(b) = sum over the present days t of [s, e] of w_t e^{b (t-s+1)}.
+   * With no missing day, class j (day s+j, j < 7) holds q_j = q or q+1
+   * days, so E0 = sum_j w_j z^{j+1} expm1(7 b q_j) / expm1(7 b), z = e^b
+   * (METHODS B2-B3 in linear space: both expm1 are relatively accurate,
+   * so the ratio is accurate down to b = 0, which is taken exactly).  Four
+   * transcendental calls per slope; missing days or |7 b (q+1)| > 700 use
+   * the general log-space sums. */
+  size_t nm = d->cmiss[e + 1] - d->cmiss[s];
+  size_t Lz = e - s + 1, q = Lz / 7, r = Lz % 7;
+  double wj[7];
+  int nj = Lz < 7 ? (int)Lz : 7;
+  for (int j = 0; j < nj; j++)
+    wj[j] = d->wcls[tf_cls(d, s + (size_t)j)];
+  double lsd = -0.9189385332046727 - log(d->rsd) - lL;
   for (int i = 0; i < nd; i++) {
-    double b = k->h * (double)(dmin + i) / L, le;
-    tf_esums(d, s, e, (double)s - 1, b, &le, NULL, NULL);
+    double b = k->h * (double)(dmin + i) / L, E0;
+    if (nm == 0 && fabs(7 * b * (double)(q + 1)) < 700) {
+      double zb = exp(b), zp = zb, A = 0, B = 0;
+      for (int j = 0; j < nj; j++) {
+        if ((size_t)j < r)
+          A += wj[j] * zp;
+        else
+          B += wj[j] * zp;
+        zp *= zb;
+      }
+      if (b == 0) {
+        E0 = A * (double)(q + 1) + B * (double)q;
+      } else {
+        double den = expm1(7 * b);
+        E0 = (r ? A * expm1(7 * b * (double)(q + 1)) : 0) +
+             (q ? B * expm1(7 * b * (double)q) : 0);
+        E0 /= den;
+      }
+    } else {
+      double le;
+      tf_esums(d, s, e, (double)s - 1, b, &le, NULL, NULL);
+      E0 = exp(le);
+    }
     double z = (b - d->rmean) / d->rsd;
     k->bD[i] = b;
-    k->lE0[i] = exp(le) / phi; /* the expected count at level 1, tempered */
-    k->lND[i] = -0.9189385332046727 - log(d->rsd) - 0.5 * z * z - lL +
-                b * S1 / phi;
+    k->lE0[i] = E0 / phi; /* the expected count at level 1, tempered */
+    k->lND[i] = lsd - 0.5 * z * z + b * S1 / phi;
   }
   const double *lwb = k->lw + k->goff[j1];
   for (int g = 0; g < Ga; g++) {
@@ -204,7 +239,8 @@ static int setup(struct twofold_changes *ch, struct tf_kink *k) {
   k->ET = malloc((size_t)Gmax * (size_t)Gmax * sizeof(double));
   k->rmax = malloc((size_t)Gmax * sizeof(double));
   k->ev = malloc((size_t)Gmax * sizeof(double));
-  if (!k->ET || !k->rmax || !k->ev || !k->lw || !k->F || !k->Q || !k->F0 || !k->T || !k->lE0 || !k->bD ||
+  k->colv = malloc((size_t)Gmax * sizeof(double));
+  if (!k->colv || !k->ET || !k->rmax || !k->ev || !k->lw || !k->F || !k->Q || !k->F0 || !k->T || !k->lE0 || !k->bD ||
       !k->lND || !k->row || !k->tmp)
     return TWOFOLD_ENOMEM;
   double lh = log(k->h), lh2 = log(k->h / 2);
@@ -232,8 +268,10 @@ static void seg_exp(struct tf_kink *k, int Ga, int Gb) {
     for (int g2 = 0; g2 < Gb; g2++)
       mx = Tr[g2] > mx ? Tr[g2] : mx;
     k->rmax[g] = mx;
-    for (int g2 = 0; g2 < Gb; g2++)
-      Er[g2] = exp(Tr[g2] - mx);
+    for (int g2 = 0; g2 < Gb; g2++) {
+      double v = Tr[g2] - mx;
+      Er[g2] = v > -60 ? exp(v) : 0; /* below e^-60 of the row: 0 */
+    }
   }
 }
 
@@ -254,23 +292,46 @@ static void rows_lse_e(struct tf_kink *k, int Ga, int Gb, const double *v,
   }
 }
 
-/* lse-add log sum_g exp(u[g] + T[g][g'] + c) into dst[g'] (ET ready). */
-static void cols_lse_add_e(struct tf_kink *k, int Ga, int Gb,
-                           const double *u, double c, double *dst) {
+/* Forward states are accumulated in linear space with one log scale per
+ * knot: the value of state g' is *S + log dst[g'].  Add
+ * sum_g exp(u[g] + T[g][g'] + c) (ET ready): one exponential per row and
+ * at most two per call, instead of a log-sum-exp per entry. */
+static void cols_add_lin(struct tf_kink *k, int Ga, int Gb, const double *u,
+                         double c, double *dst, double *S) {
   double M = -INFINITY;
   for (int g = 0; g < Ga; g++)
     M = u[g] + k->rmax[g] > M ? u[g] + k->rmax[g] : M;
   if (M == -INFINITY)
     return;
-  for (int g = 0; g < Ga; g++)
-    k->ev[g] = exp(u[g] + k->rmax[g] - M);
-  for (int g2 = 0; g2 < Gb; g2++) {
-    double sum = 0;
-    for (int g = 0; g < Ga; g++)
-      sum += k->ev[g] * k->ET[(size_t)g * (size_t)Gb + g2];
-    if (sum > 0)
-      dst[g2] = tf_lse(dst[g2], M + log(sum) + c);
+  double *sum = k->colv;
+  for (int g2 = 0; g2 < Gb; g2++)
+    sum[g2] = 0;
+  for (int g = 0; g < Ga; g++) {
+    double v = u[g] + k->rmax[g] - M;
+    if (v < -60)
+      continue; /* below e^-60 of the largest row: negligible */
+    double ev = exp(v);
+    const double *Er = k->ET + (size_t)g * (size_t)Gb;
+    for (int g2 = 0; g2 < Gb; g2++)
+      sum[g2] += ev * Er[g2];
   }
+  double off = M + c;
+  if (off > *S) {
+    double sc = *S == -INFINITY ? 0 : exp(*S - off);
+    for (int g2 = 0; g2 < Gb; g2++)
+      dst[g2] = dst[g2] * sc + sum[g2];
+    *S = off;
+  } else {
+    double f = exp(off - *S);
+    for (int g2 = 0; g2 < Gb; g2++)
+      dst[g2] += f * sum[g2];
+  }
+}
+
+/* Linear states of one knot back to logs, in place. */
+static void lin_to_log(double *v, int G, double S) {
+  for (int g = 0; g < G; g++)
+    v[g] = S > -INFINITY && v[g] > 0 ? S + log(v[g]) : -INFINITY;
 }
 
 static double lse_vec(const double *v, int m) {
@@ -364,17 +425,39 @@ int tf_kink_run(struct twofold_changes *ch) {
     free(zero);
     return TWOFOLD_ENOMEM;
   }
+  /* F and Fj hold linear values with log scales FS, FjS per knot until
+   * their knot is reached, then logs */
+  double *FS = malloc((n + 1) * sizeof(double));
+  double *FjS = malloc((size_t)(K + 1) * (n + 1) * sizeof(double));
+  if (!FS || !FjS) {
+    free(FS);
+    free(FjS);
+    free(Fj);
+    free(V);
+    free(bps);
+    free(bpg);
+    free(d0);
+    free(d1);
+    free(d2);
+    free(zero);
+    return TWOFOLD_ENOMEM;
+  }
   for (size_t i = 0; i < ns; i++) {
-    k->F[i] = -INFINITY;
+    k->F[i] = 0;
     V[i] = -INFINITY;
     bps[i] = 0;
     bpg[i] = 0;
   }
   for (size_t i = 0; i < (size_t)(K + 1) * ns; i++)
-    Fj[i] = -INFINITY;
+    Fj[i] = 0;
+  for (size_t i = 0; i <= n; i++)
+    FS[i] = -INFINITY;
+  for (size_t i = 0; i < (size_t)(K + 1) * (n + 1); i++)
+    FjS[i] = -INFINITY;
+  FS[0] = FjS[0] = 0;
   for (int g = 0; g < k->G[0]; g++) {
-    k->F[g] = k->F0[g];
-    Fj[g] = k->F0[g];
+    k->F[g] = exp(k->F0[g]);
+    Fj[g] = exp(k->F0[g]);
     V[g] = k->F0[g];
   }
   for (int m = 0; m <= K; m++)
@@ -384,6 +467,10 @@ int tf_kink_run(struct twofold_changes *ch) {
   int bestg = 0;
   for (size_t s = 0; s < n; s++) {
     int Ga = k->G[s];
+    lin_to_log(k->F + k->goff[s], Ga, FS[s]);
+    for (int j = 0; j <= K; j++)
+      lin_to_log(Fj + (size_t)j * ns + k->goff[s], Ga,
+                 FjS[(size_t)j * (n + 1) + s]);
     const double *Fs = k->F + k->goff[s];
     double fmax = -INFINITY;
     for (int g = 0; g < Ga; g++)
@@ -418,9 +505,10 @@ int tf_kink_run(struct twofold_changes *ch) {
             if (fu == 0)
               continue;
             const double *Er = k->ET + (size_t)g * (size_t)Gb;
+            const double *bD = k->bD + (Ga - 1 - g);
             for (int g2 = 0; g2 < Gb; g2++) {
               double w = fu * Er[g2] * k->row[g2];
-              double b = seg_b(k, s, e, g, g2);
+              double b = bD[g2];
               w0 += w;
               w1 += w * b;
               w2 += w * b * b;
@@ -472,14 +560,17 @@ int tf_kink_run(struct twofold_changes *ch) {
           for (int g = 0; g < Ga; g++)
             ch->kprob[j] += exp(u[g] + k->tmp[g] + pr - lZ);
         } else if (j < K) {
-          cols_lse_add_e(k, Ga, Gb, u, pr, Fj + (size_t)(j + 1) * ns + ob);
+          cols_add_lin(k, Ga, Gb, u, pr, Fj + (size_t)(j + 1) * ns + ob,
+                       FjS + (size_t)(j + 1) * (n + 1) + e + 1);
         }
       }
       if (!last)
-        cols_lse_add_e(k, Ga, Gb, Fs, pr, k->F + ob);
+        cols_add_lin(k, Ga, Gb, Fs, pr, k->F + ob, FS + e + 1);
     }
   }
   free(zero);
+  free(FS);
+  free(FjS);
   /* change probabilities */
   ch->pch[0] = 0;
   double km = 0;
