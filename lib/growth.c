@@ -235,7 +235,8 @@ int twofold_growth_fit(twofold_fit *fit, const twofold_fit_options *o,
   }
   fit->interval = o->interval;
   int rc = tf_growth_core(o, y, offset, n, first_weekday - 1,
-                          TF_WANT_ALL | TF_WANT_LOGLIK, NULL, &fit->res);
+                          TF_WANT_ALL | TF_WANT_LOGLIK, NULL, NULL,
+                          &fit->res);
   fit->has_fit = rc == 0;
   return rc;
 }

@@ -50,7 +50,6 @@
 #include <float.h>
 #include <gsl/gsl_cdf.h>
 #include <gsl/gsl_sf_gamma.h>
-#include <gsl/gsl_sf_psi.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -80,16 +79,54 @@ double tf_norm_q(double p) {
   return gsl_cdf_ugaussian_Pinv(p);
 }
 
-double tf_t_q(double p, double df) {
-  if (!(p > 0.0 && p < 1.0) || !(df > 0.0) || !isfinite(df))
-    return NAN;
-  return gsl_cdf_tdist_Pinv(p, df);
-}
-
-double tf_chisq1_q(double level) {
+/* Upper quantiles from the upper tail probability q = (1 - level) / 2,
+ * which is exact for every level in (0, 1) (1 - level is), where
+ * 0.5 + level / 2 rounds to 1 for levels within 1e-16 of 1.  The
+ * Student t with one degree of freedom is the Cauchy, whose quantile
+ * cot(pi q) GSL's tan-based form loses for q below 1e-16. */
+static double upper_q(double level, double df) {
   if (!(level > 0.0 && level < 1.0))
     return NAN;
-  return gsl_cdf_chisq_Pinv(level, 1.0);
+  double q = 0.5 * (1.0 - level);
+  if (!(q > 0.0))
+    return NAN;
+  if (!isfinite(df))
+    return gsl_cdf_ugaussian_Qinv(q);
+  if (df == 1.0)
+    return 1.0 / tan(3.14159265358979323846 * q);
+  return gsl_cdf_tdist_Qinv(q, df);
+}
+
+double tf_z_level(double level) { return upper_q(level, INFINITY); }
+
+double tf_t_level(double level, double df) {
+  if (!(df > 0.0) || !isfinite(df))
+    return NAN;
+  return upper_q(level, df);
+}
+
+/* The chi-square(1) quantile at level is the square of the normal
+ * quantile at (1 + level) / 2 (gsl_cdf_chisq_Pinv fails at extreme
+ * levels such as 1e-300). */
+double tf_chisq1_q(double level) {
+  double z = tf_z_level(level);
+  return z * z;
+}
+
+void tf_quant_init(tf_quant *Q, double level) {
+  Q->level = level;
+  Q->z = tf_z_level(level);
+  Q->c = 0.5 * tf_chisq1_q(level);
+  Q->df = NAN;
+  Q->tq = NAN;
+}
+
+double tf_quant_t(tf_quant *Q, double df) {
+  if (df != Q->df) {
+    Q->df = df;
+    Q->tq = tf_t_level(Q->level, df);
+  }
+  return Q->tq;
 }
 
 /* log Gamma(y + 1) for a whole number y >= 0. */
@@ -108,9 +145,11 @@ static double lnpoch(double theta, double y) {
   return gsl_sf_lnpoch(theta, y);
 }
 
-/* psi(theta + y) - psi(theta) and psi'(theta) - psi'(theta + y). */
-static void psidiff(double theta, double y, double *d1, double *d2) {
-  if (y <= 24.0) {
+/* psi(theta + y) - psi(theta) and psi'(theta) - psi'(theta + y); ps0 and
+ * ps1 are psi(theta) and psi'(theta) (used only where needed). */
+static void psidiff(double theta, double y, double ps0, double ps1,
+                    double *d1, double *d2) {
+  if (y <= 6.0) {
     double s1 = 0.0, s2 = 0.0;
     for (double k = 0.0; k < y; k += 1.0) {
       double u = 1.0 / (theta + k);
@@ -139,8 +178,8 @@ static void psidiff(double theta, double y, double *d1, double *d2) {
     *d2 = i1 + i2 / 2.0 + i3 / 6.0 - i5 / 30.0 + i7 / 42.0;
     return;
   }
-  *d1 = gsl_sf_psi(theta + y) - gsl_sf_psi(theta);
-  *d2 = gsl_sf_psi_1(theta) - gsl_sf_psi_1(theta + y);
+  *d1 = tf_digamma(theta + y) - ps0;
+  *d2 = ps1 - tf_trigamma(theta + y);
 }
 
 /* Closed-form moments of k = 0..L-1 under weights e^{b k} (METHODS.md B2):
@@ -307,6 +346,11 @@ static int pois_solve(const win_t *w, double r0, int maxit, double tol,
     double h = -d2;
     if (!(h > 0.0) || !isfinite(g))
       return -1;
+    if (g == 0.0) { /* exactly stationary: no bracket update */
+      *r_out = r;
+      *h_out = h;
+      return it;
+    }
     if (g > 0.0)
       lo = r > lo ? r : lo;
     else
@@ -436,6 +480,7 @@ static double nb_theta(const win_t *w, nbpar *p, const double *mu,
   p->capped = 0;
   for (int it = 0; it < 60; it++) {
     double th = exp(tau);
+    double ps0 = tf_digamma(th), ps1 = tf_trigamma(th);
     ksum S = {0, 0}, D = {0, 0};
     size_t k = 0;
     for (size_t t = 0; t < w->n; t++) {
@@ -444,7 +489,7 @@ static double nb_theta(const win_t *w, nbpar *p, const double *mu,
         continue;
       double m = mu[k++];
       double d1, d2;
-      psidiff(th, y, &d1, &d2);
+      psidiff(th, y, ps0, ps1, &d1, &d2);
       ks_add(&S, d1 - log1p(m / th) + (m - y) / (m + th));
       /* dS/dtheta */
       ks_add(&D, -d2 + m / (th * (th + m)) - (m - y) / ((m + th) * (m + th)));
@@ -589,34 +634,6 @@ static void nb_stats(const win_t *w, const nbpar *p, double *se,
   *dev = ks_val(&D);
 }
 
-/* Log of det(X'WX) (expected information of the regression parameters at
- * fixed theta), up to a constant of the parametrisation. */
-static double nb_logdet(const win_t *w, const nbpar *p, int fixr) {
-  int nc = w->nc;
-  double th = p->theta;
-  double I[7] = {0}, Ir[7] = {0}, Irr = 0.0;
-  for (size_t t = 0; t < w->n; t++) {
-    double y = w->y[t];
-    if (tf_isnan(y))
-      continue;
-    int j = cls(w, t);
-    double tt = (double)t;
-    double mu = exp(offv(w, t) + p->b[j] + p->r * tt);
-    double W = th * mu / (th + mu);
-    I[j] += W;
-    Ir[j] += W * tt;
-    Irr += W * tt * tt;
-  }
-  double ld = 0.0, sch = Irr;
-  for (int j = 0; j < nc; j++) {
-    ld += log(I[j]);
-    sch -= Ir[j] * Ir[j] / I[j];
-  }
-  if (!fixr)
-    ld += log(sch > 0.0 ? sch : DBL_MIN);
-  return ld;
-}
-
 /* ------------------------------------------------------------------ */
 /* Profile-likelihood roots                                            */
 /* ------------------------------------------------------------------ */
@@ -720,65 +737,132 @@ static double prof_root(prof_ctx *c, double rhat, double lhat, double target,
  * log-likelihood (Cox & Reid 1987, JRSS B 49:1-39)
  *     l_CR(theta) = l(beta_theta, theta) - 1/2 log det(X'W X),
  * beta_theta the MLE at fixed theta: theta times the score in theta (the
- * envelope theorem) minus half the derivative of the log determinant,
- * taken by central differences (h = 1e-5) with beta refitted at each
- * point.  p is updated to beta_theta. */
+ * envelope theorem) minus half the total derivative of the log
+ * determinant, in closed form:
+ *     d/dtau log det(X'WX) = sum_t (dW_t/dtau) x_t'(X'WX)^{-1} x_t,
+ *     dW_t/dtau = theta mu^2/(theta+mu)^2 + theta^2 mu/(theta+mu)^2 x_t'dbeta,
+ * dbeta/dtau = H^{-1} d2l/dbeta dtau (implicit differentiation of the
+ * score; H the observed information of beta), the leverages
+ * x_t'(X'WX)^{-1}x_t = 1/I_j + (t - tbar_j)^2 / S from the arrow-shaped
+ * information (S its Schur complement in r).  p is updated to beta_theta;
+ * mu is scratch of w->used doubles. */
 static double cr_grad(const win_t *w, nbpar *p, double tau, int maxit,
-                      double tol, int *fail) {
-  const double h = 1e-5;
+                      double tol, int *fail, double *mu) {
   p->theta = exp(tau);
   if (nb_beta(w, p, 0, maxit, tol) < 0) {
     *fail = 1;
     return NAN;
   }
+  int nc = w->nc;
   double th = p->theta;
+  double ps0 = tf_digamma(th), ps1 = tf_trigamma(th);
+  double I[7] = {0}, Ir[7] = {0}, Irr = 0.0;      /* expected (X'WX)  */
+  double H[7] = {0}, Hr[7] = {0}, Hrr = 0.0;      /* observed         */
+  double G[7] = {0}, Gr = 0.0;                    /* d2l/dbeta dtau   */
   ksum S = {0, 0};
+  size_t k = 0;
   for (size_t t = 0; t < w->n; t++) {
     double y = w->y[t];
     if (tf_isnan(y))
       continue;
-    double m = exp(offv(w, t) + p->b[cls(w, t)] + p->r * (double)t);
+    int j = cls(w, t);
+    double tt = (double)t;
+    double m = exp(offv(w, t) + p->b[j] + p->r * tt);
+    mu[k++] = m;
+    double den = th + m, i2 = 1.0 / (den * den);
+    double W = th * m / den;
+    double h = th * m * (th + y) * i2;
+    double gt = th * m * (y - m) * i2;
     double d1, d2;
-    psidiff(th, y, &d1, &d2);
-    ks_add(&S, d1 - log1p(m / th) + (m - y) / (m + th));
+    psidiff(th, y, ps0, ps1, &d1, &d2);
+    (void)d2;
+    ks_add(&S, d1 - log1p(m / th) + (m - y) / den);
+    I[j] += W;
+    Ir[j] += W * tt;
+    Irr += W * tt * tt;
+    H[j] += h;
+    Hr[j] += h * tt;
+    Hrr += h * tt * tt;
+    G[j] += gt;
+    Gr += gt * tt;
   }
-  nbpar q = *p;
-  q.theta = exp(tau + h);
-  if (nb_beta(w, &q, 0, maxit, tol) < 0) {
+  /* dbeta = H^{-1} G (arrow solve) and the Schur complement of X'WX */
+  double schH = Hrr, rhs = Gr, schI = Irr, tbar[7];
+  for (int j = 0; j < nc; j++) {
+    if (!(H[j] > 0.0) || !(I[j] > 0.0)) {
+      *fail = 1;
+      return NAN;
+    }
+    schH -= Hr[j] * Hr[j] / H[j];
+    rhs -= Hr[j] * G[j] / H[j];
+    tbar[j] = Ir[j] / I[j];
+    schI -= Ir[j] * tbar[j];
+  }
+  if (!(schH > 0.0) || !(schI > 0.0)) {
     *fail = 1;
     return NAN;
   }
-  double ldp = nb_logdet(w, &q, 0);
-  q = *p;
-  q.theta = exp(tau - h);
-  if (nb_beta(w, &q, 0, maxit, tol) < 0) {
-    *fail = 1;
-    return NAN;
+  double dr = rhs / schH, db[7];
+  for (int j = 0; j < nc; j++)
+    db[j] = (G[j] - Hr[j] * dr) / H[j];
+  double dld = 0.0;
+  k = 0;
+  for (size_t t = 0; t < w->n; t++) {
+    if (tf_isnan(w->y[t]))
+      continue;
+    int j = cls(w, t);
+    double tt = (double)t;
+    double m = mu[k++];
+    double den = th + m, i2 = 1.0 / (den * den);
+    double dW = th * m * (m + th * (db[j] + tt * dr)) * i2;
+    double d = tt - tbar[j];
+    dld += dW * (1.0 / I[j] + d * d / schI);
   }
-  double ldm = nb_logdet(w, &q, 0);
-  return th * ks_val(&S) - 0.5 * (ldp - ldm) / (2.0 * h);
+  return th * ks_val(&S) - 0.5 * dld;
 }
 
 /* The Cox-Reid adjusted theta: the root of cr_grad below the ML value,
- * bracketed by stepping down, then refined by the Illinois variant of
- * false position.  p (in: the ML fit) gets beta at the adjusted theta. */
+ * bracketed by stepping down (or, given a guess of log theta, first
+ * tried at guess +- 0.02), then refined by the Illinois variant of
+ * false position.  p (in: the ML fit) gets beta at the adjusted theta;
+ * mu is scratch of w->used doubles. */
 static double cr_theta(const win_t *w, nbpar *p, int maxit, double tol,
-                       int *fail) {
+                       int *fail, double guess, double *mu) {
   double b = log(p->theta);
-  double gb = cr_grad(w, p, b, maxit, tol, fail);
+  double gb = cr_grad(w, p, b, maxit, tol, fail, mu);
   if (*fail)
     return NAN;
   if (gb >= 0.0)
     return p->theta; /* at the cap (flat) or already stationary */
   nbpar pa = *p;
   double a = b, ga = gb, step = 0.5;
-  for (int k = 0;; k++) {
+  int bracketed = 0;
+  if (isfinite(guess) && guess < b) {
+    double tr[2] = {guess + 0.02, guess - 0.02};
+    for (int i = 0; i < 2 && !bracketed; i++) {
+      if (!(tr[i] < b))
+        continue;
+      double gt = cr_grad(w, &pa, tr[i], maxit, tol, fail, mu);
+      if (*fail)
+        return NAN;
+      if (gt > 0.0) {
+        a = tr[i];
+        ga = gt;
+        bracketed = 1;
+      } else {
+        b = tr[i];
+        gb = gt;
+        *p = pa;
+      }
+    }
+  }
+  for (int k = 0; !bracketed; k++) {
     a = b - step;
     if (a < -20.0 || k > 60) {
       *fail = 1;
       return NAN;
     }
-    ga = cr_grad(w, &pa, a, maxit, tol, fail);
+    ga = cr_grad(w, &pa, a, maxit, tol, fail, mu);
     if (*fail)
       return NAN;
     if (ga > 0.0)
@@ -795,7 +879,7 @@ static double cr_theta(const win_t *w, nbpar *p, int maxit, double tol,
     double c = (a * gb - b * ga) / (gb - ga);
     if (!(c > a && c < b))
       c = 0.5 * (a + b);
-    double gc = cr_grad(w, &pc, c, maxit, tol, fail);
+    double gc = cr_grad(w, &pc, c, maxit, tol, fail, mu);
     if (*fail)
       return NAN;
     if (gc == 0.0 || b - a < 1e-12) {
@@ -1007,12 +1091,12 @@ static void pois_stats(const win_t *w, double r, const double *b,
 
 /* NB small-sample interval: Wald with the Cox-Reid adjusted theta and a
  * t quantile on the residual degrees of freedom.  See growth.c. */
-static int nb_small(const win_t *w, const nbpar *ml, double level, double df,
+static int nb_small(const win_t *w, const nbpar *ml, tf_quant *Q, double df,
                     int maxit, double tol, double *lo, double *hi,
-                    double *theta_cr) {
+                    double *theta_cr, double guess, double *mu) {
   int bad = 0;
   nbpar p = *ml;
-  double th = cr_theta(w, &p, maxit, tol, &bad);
+  double th = cr_theta(w, &p, maxit, tol, &bad, guess, mu);
   if (bad || !(th > 0.0))
     return -1;
   p.theta = th;
@@ -1020,7 +1104,7 @@ static int nb_small(const win_t *w, const nbpar *ml, double level, double df,
     return -1;
   double se, X2, dev;
   nb_stats(w, &p, &se, &X2, &dev);
-  double q = tf_t_q(0.5 + level / 2.0, df);
+  double q = tf_quant_t(Q, df);
   *lo = p.r - q * se;
   *hi = p.r + q * se;
   *theta_cr = th;
@@ -1029,10 +1113,10 @@ static int nb_small(const win_t *w, const nbpar *ml, double level, double df,
 
 /* The Poisson and quasi-Poisson fit of a scanned and checked window. */
 static int pois_finish(win_t *w, const struct twofold_fit_options *o,
-                       unsigned want, double r0, tf_gres *res) {
+                       unsigned want, double r0, tf_quant *Q, tf_gres *res) {
   int model = o->model;
-  double z = tf_norm_q(0.5 + o->level / 2.0);
-  double c = 0.5 * tf_chisq1_q(o->level);
+  double z = Q->z;
+  double c = Q->c;
   double r, h;
   int it = pois_solve(w, r0, o->max_iter, o->tol, &r, &h);
   if (it < 0)
@@ -1055,7 +1139,7 @@ static int pois_finish(win_t *w, const struct twofold_fit_options *o,
   double q = z, cc = c;
   if (model == TWOFOLD_MODEL_QUASIPOISSON) {
     res->se *= sqrt(res->disp);
-    q = tf_t_q(0.5 + o->level / 2.0, res->df);
+    q = tf_quant_t(Q, res->df);
     cc = 0.5 * q * q * res->disp;
   }
   if (want & (TF_WANT_WALD | TF_WANT_SMALL)) {
@@ -1085,6 +1169,255 @@ static int pois_finish(win_t *w, const struct twofold_fit_options *o,
   return 0;
 }
 
+/* ------------------------------------------------------------------ */
+/* Complete windows without offset: the profile from two geometric      */
+/* groups                                                               */
+/* ------------------------------------------------------------------ */
+
+/* In a complete window the weekday classes have only two lengths La and
+ * La + 1 (one length without weekday effects) and class j starts on day
+ * u0_j, so with U = sum_j Y_j u0_j the Poisson profile log-likelihood is
+ *     l_p(r) = r (T - U) - YA G(s r, La) - YB G(s r, La + 1),
+ * G(x, L) = log sum_{k<L} e^{x k}, s the class step (7, or 1), YA and YB
+ * the events of the classes of each length.  Both groups' power sums
+ * share q = e^{-|x|}: one exponential per evaluation.  The sums are taken
+ * from the heavy end (k' = L-1-k when x > 0), so no term exceeds 1. */
+typedef struct {
+  double s;      /* class step */
+  int La, nb;    /* shorter length; nb = 1 if there is a group of La+1 */
+  double YA, YB; /* events in each group */
+  double Tp;     /* T - U */
+} gprof;
+
+#define GP_MAXL 48 /* longer classes use the closed forms of tf_geom */
+
+typedef struct {
+  double lE, m, V, K3; /* log sum, mean, variance, third central moment */
+} gmom;
+
+/* The moments of k under e^{x k}, k < La and k < La + 1 (if g->nb); lE
+ * only when need_log. */
+static void gp_moments(const gprof *g, double r, int need_log, gmom *A,
+                       gmom *B) {
+  double x = g->s * r;
+  int La = g->La, Lb = La + g->nb;
+  if (Lb > GP_MAXL) {
+    double d = 1e-4 / (double)Lb; /* K3 by a central difference of V */
+    double lE, m, Vp, Vm;
+    tf_geom(x, (double)La, &A->lE, &A->m, &A->V);
+    tf_geom(x + d, (double)La, &lE, &m, &Vp);
+    tf_geom(x - d, (double)La, &lE, &m, &Vm);
+    A->K3 = (Vp - Vm) / (2.0 * d);
+    if (g->nb) {
+      tf_geom(x, (double)Lb, &B->lE, &B->m, &B->V);
+      tf_geom(x + d, (double)Lb, &lE, &m, &Vp);
+      tf_geom(x - d, (double)Lb, &lE, &m, &Vm);
+      B->K3 = (Vp - Vm) / (2.0 * d);
+    }
+    return;
+  }
+  double q = exp(-fabs(x));
+  double c = 0.5 * (double)(La - 1); /* centre: fewer cancellations */
+  double p = 1.0, S0 = 0.0, S1 = 0.0, S2 = 0.0, S3 = 0.0;
+  for (int k = 0; k < La; k++) {
+    double u = (double)k - c, pu = p * u, pu2 = pu * u;
+    S0 += p;
+    S1 += pu;
+    S2 += pu2;
+    S3 += pu2 * u;
+    p *= q;
+  }
+  gmom *G[2] = {A, B};
+  for (int gi = 0; gi <= g->nb; gi++) {
+    int L = gi ? Lb : La;
+    if (gi) {
+      double u = (double)La - c, pu = p * u, pu2 = pu * u;
+      S0 += p;
+      S1 += pu;
+      S2 += pu2;
+      S3 += pu2 * u;
+    }
+    double i0 = 1.0 / S0;
+    double mc = S1 * i0; /* mean of k' - c */
+    double v = S2 * i0 - mc * mc;
+    double k3 = S3 * i0 - 3.0 * mc * S2 * i0 + 2.0 * mc * mc * mc;
+    double mk = c + mc; /* mean of k' */
+    gmom *o = G[gi];
+    o->V = v > 0.0 ? v : 0.0;
+    if (x > 0.0) {
+      o->m = (double)(L - 1) - mk;
+      o->K3 = -k3;
+      o->lE = need_log ? x * (double)(L - 1) + log(S0) : NAN;
+    } else {
+      o->m = mk;
+      o->K3 = k3;
+      o->lE = need_log ? log(S0) : NAN;
+    }
+  }
+}
+
+/* l_p' = d1, -l_p'' = h and l_p''' = d3 at r; the moments in A and B. */
+static void gp_eval(const gprof *g, double r, int need_log, double *d1,
+                    double *h, double *d3, gmom *A, gmom *B) {
+  B->m = B->V = B->K3 = B->lE = 0.0;
+  gp_moments(g, r, need_log, A, B);
+  double s = g->s;
+  *d1 = g->Tp - s * (g->YA * A->m + g->YB * B->m);
+  *h = s * s * (g->YA * A->V + g->YB * B->V);
+  *d3 = -s * s * s * (g->YA * A->K3 + g->YB * B->K3);
+}
+
+/* The end on side sd (+1/-1) of {r : l_p(rhat) - l_p(r) <= cc}: Halley's
+ * method on f(r) = l_p(r) - l_p(rhat) + cc from x0, safeguarded by
+ * Newton (l_p is concave, so Newton from beyond the end moves
+ * monotonically onto it).  Differences of G are taken group by group, so
+ * no large log-likelihood values are subtracted.  NaN on failure. */
+static double gp_root(const gprof *g, double rhat, const gmom *Ah,
+                      const gmom *Bh, double cc, double sd, double x0,
+                      double scale, int maxit) {
+  double x = x0;
+  for (int it = 0; it < maxit; it++) {
+    gmom A, B;
+    double d1, h, d3;
+    gp_eval(g, x, 1, &d1, &h, &d3, &A, &B);
+    double f = (x - rhat) * g->Tp - g->YA * (A.lE - Ah->lE) -
+               (g->nb ? g->YB * (B.lE - Bh->lE) : 0.0) + cc;
+    if (!(sd * d1 < 0.0) || !isfinite(f))
+      return NAN;
+    double dn = -f / d1;                /* Newton   */
+    double den = 2.0 * d1 * d1 + f * h; /* f'' = -h */
+    double dx = den > 0.0 ? -2.0 * f * d1 / den : dn; /* Halley */
+    if (!(fabs(dx) <= 2.0 * fabs(dn)))
+      dx = dn;
+    if (sd * (x + dx - rhat) <= 0.0)
+      dx = 0.5 * (rhat - x); /* stay on this side */
+    x += dx;
+    if (fabs(dx) < 1e-5 * scale)
+      return x;
+  }
+  return NAN;
+}
+
+/* The Poisson and quasi-Poisson fit of a complete window from its sums.
+ * Returns 0 (done), or 1 when the caller should use the general path. */
+static int geom_fast(win_t *w, const struct twofold_fit_options *o,
+                     unsigned want, double r0, const double *hint,
+                     tf_quant *Q, tf_gres *res) {
+  int nc = w->nc, model = o->model;
+  gprof g;
+  memset(&g, 0, sizeof g);
+  double U = 0.0;
+  if (nc == 7) {
+    g.s = 7.0;
+    g.La = (int)(w->n / 7);
+    int extra = (int)(w->n % 7);
+    g.nb = extra > 0;
+    for (int j = 0; j < 7; j++) {
+      U += w->Y[j] * w->u0[j];
+      if (w->u0[j] < (double)extra)
+        g.YB += w->Y[j];
+      else
+        g.YA += w->Y[j];
+    }
+  } else {
+    g.s = 1.0;
+    g.La = (int)w->n;
+    g.YA = w->Ytot;
+  }
+  g.Tp = w->T - U;
+  /* Halley (the third derivative is at hand), safeguarded as pois_solve;
+   * it stops once the Newton decrement is below 1e-8 tol, taking that
+   * last Newton step: its error, and that of the curvature taken before
+   * it, are then far below the single fit's */
+  double r = isfinite(r0) ? r0 : 0.0;
+  double lo = -INFINITY, hi = INFINITY, d1, h, d3;
+  gmom Ah, Bh;
+  int it, done = 0;
+  for (it = 1; it <= o->max_iter; it++) {
+    gp_eval(&g, r, 0, &d1, &h, &d3, &Ah, &Bh);
+    if (!(h > 0.0) || !isfinite(d1))
+      return 1;
+    double step = d1 / h;
+    double lam2 = d1 * step;
+    if (lam2 < 1e-8 * o->tol) {
+      r += step;
+      done = 1;
+      break;
+    }
+    if (d1 > 0.0)
+      lo = r > lo ? r : lo;
+    else
+      hi = r < hi ? r : hi;
+    /* Halley: root of g = l_p', g' = -h, g'' = d3 */
+    double den = 2.0 * h * h - d1 * d3;
+    double hs = den > 0.0 ? 2.0 * d1 * h / den : step;
+    if (fabs(hs) <= 2.0 * fabs(step))
+      step = hs;
+    if (step > 0.5)
+      step = 0.5;
+    else if (step < -0.5)
+      step = -0.5;
+    double rn = r + step;
+    if (!(rn > lo && rn < hi) && isfinite(lo) && isfinite(hi))
+      rn = 0.5 * (lo + hi);
+    r = rn;
+  }
+  if (!done)
+    return 1;
+  double se = 1.0 / sqrt(h);
+  res->r = r;
+  res->se = se;
+  res->iter = it;
+  res->theta = INFINITY;
+  int need_b = model == TWOFOLD_MODEL_QUASIPOISSON ||
+               (want & (TF_WANT_LOGLIK | TF_WANT_PROFILE | TF_WANT_SMALL));
+  if (need_b) {
+    /* the log sums at the estimate (also the base of the profile) */
+    gp_moments(&g, r, 1, &Ah, &Bh);
+    for (int j = 0; j < nc; j++) {
+      int isb = nc == 7 && g.nb && w->u0[j] < (double)(w->n % 7);
+      double lE = r * w->u0[j] + (isb ? Bh.lE : Ah.lE);
+      res->b[j] = log(w->Y[j]) - lE;
+    }
+  }
+  if (model == TWOFOLD_MODEL_QUASIPOISSON || (want & TF_WANT_LOGLIK)) {
+    pois_stats(w, r, res->b, (want & TF_WANT_LOGLIK) != 0, &res->pearson,
+               &res->dev, &res->ll);
+    res->disp = res->pearson / res->df;
+  }
+  double q = Q->z, cc = Q->c;
+  if (model == TWOFOLD_MODEL_QUASIPOISSON) {
+    res->se *= sqrt(res->disp);
+    q = tf_quant_t(Q, res->df);
+    cc = 0.5 * q * q * res->disp;
+  }
+  double st = q * res->se;
+  if (want & (TF_WANT_WALD | TF_WANT_SMALL)) {
+    res->wald[0] = r - st;
+    res->wald[1] = r + st;
+  }
+  if ((want & TF_WANT_PROFILE) ||
+      ((want & TF_WANT_SMALL) && model == TWOFOLD_MODEL_POISSON)) {
+    double sc = st + 1e-300;
+    double x0lo = r - st, x0hi = r + st;
+    if (hint && hint[0] < 0.0 && hint[1] > 0.0) {
+      x0lo = r + hint[0];
+      x0hi = r + hint[1];
+    }
+    int mi = 60;
+    res->prof[0] = gp_root(&g, r, &Ah, &Bh, cc, -1.0, x0lo, sc, mi);
+    res->prof[1] = gp_root(&g, r, &Ah, &Bh, cc, +1.0, x0hi, sc, mi);
+    if (tf_isnan(res->prof[0]) || tf_isnan(res->prof[1]))
+      return 1;
+  }
+  if (want & TF_WANT_SMALL) {
+    const double *v = model == TWOFOLD_MODEL_POISSON ? res->prof : res->wald;
+    res->small[0] = v[0];
+    res->small[1] = v[1];
+  }
+  return 0;
+}
+
 static void win_init(win_t *w, const struct twofold_fit_options *o,
                      const double *y, const double *off, size_t n, int wd0) {
   memset(w, 0, sizeof *w);
@@ -1097,7 +1430,8 @@ static void win_init(win_t *w, const struct twofold_fit_options *o,
 
 int tf_growth_geom(const struct twofold_fit_options *o, const double *y,
                    size_t n, int wd0, const double *Yk, double T,
-                   unsigned want, double r0, tf_gres *res) {
+                   unsigned want, double r0, const double *hint, tf_quant *Q,
+                   tf_gres *res) {
   win_t w;
   win_init(&w, o, y, NULL, n, wd0);
   int nc = w.nc;
@@ -1142,13 +1476,29 @@ int tf_growth_geom(const struct twofold_fit_options *o, const double *y,
   if (rc)
     return rc;
   res->df = (double)(w.used - (size_t)nc - 1);
-  return pois_finish(&w, o, want, r0, res);
+  if (geom_fast(&w, o, want, r0, hint, Q, res) == 0)
+    return 0;
+  /* the general path reports any failure */
+  unsigned fl = res->flags;
+  res_clear(res, o->model, nc, o->level);
+  res->wd0 = wd0;
+  res->flags = fl;
+  res->used = w.used;
+  res->missing = 0;
+  res->events = w.Ytot;
+  res->df = (double)(w.used - (size_t)nc - 1);
+  return pois_finish(&w, o, want, r0, Q, res);
 }
 
 int tf_growth_core(const struct twofold_fit_options *o, const double *y,
                    const double *off, size_t n, int wd0, unsigned want,
-                   const tf_gres *warm, tf_gres *res) {
+                   const tf_gres *warm, tf_quant *Q, tf_gres *res) {
   int model = o->model;
+  tf_quant Qlocal;
+  if (Q == NULL) {
+    tf_quant_init(&Qlocal, o->level);
+    Q = &Qlocal;
+  }
   win_t w;
   win_init(&w, o, y, off, n, wd0);
   int nc = w.nc;
@@ -1164,11 +1514,11 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
   int wuse = warm && warm->status == 0 && warm->model == model &&
              warm->nclass == nc && isfinite(warm->r);
   if (model != TWOFOLD_MODEL_NEGBIN)
-    return pois_finish(&w, o, want, wuse ? warm->r : 0.0, res);
+    return pois_finish(&w, o, want, wuse ? warm->r : 0.0, Q, res);
 
   /* NB2: start from the Poisson fit (or the warm start) */
-  double z = tf_norm_q(0.5 + o->level / 2.0);
-  double c = 0.5 * tf_chisq1_q(o->level);
+  double z = Q->z;
+  double c = Q->c;
   double *mu = malloc(w.used * sizeof *mu);
   if (mu == NULL)
     return fail(res, TWOFOLD_ENOMEM, "out of memory%s%.0f", "", 0.0);
@@ -1203,6 +1553,8 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
     double th0 = (double)w.used / s;
     if (!(th0 > 0.0) || th0 > TF_THETA_CAP)
       th0 = TF_THETA_CAP;
+    if (th0 < 1.4e-11) /* e^-25, the floor of the theta search */
+      th0 = 1.4e-11;
     np.theta = th0;
   }
   if (nb_fit(&w, &np, 0, o->max_iter, o->tol, mu) != 0) {
@@ -1244,8 +1596,14 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
     }
   }
   if (want & TF_WANT_SMALL) {
-    if (nb_small(&w, &np, o->level, res->df, o->max_iter, o->tol,
-                 &res->small[0], &res->small[1], &res->theta_cr) != 0) {
+    /* the previous window's adjustment, as a first guess */
+    double guess = NAN;
+    if (wuse && warm->theta_cr > 0.0 && warm->theta > 0.0 &&
+        isfinite(warm->theta_cr) && isfinite(warm->theta))
+      guess = log(np.theta) + log(warm->theta_cr) - log(warm->theta);
+    if (nb_small(&w, &np, Q, res->df, o->max_iter, o->tol,
+                 &res->small[0], &res->small[1], &res->theta_cr, guess,
+                 mu) != 0) {
       free(mu);
       return fail(res, TWOFOLD_ENOCONV,
                   "small-sample interval: adjusted theta search failed%s%.0f",

@@ -24,6 +24,23 @@ struct twofold_fit_options {
   double tol;
 };
 
+/* Quantile helpers on validated arguments (NaN outside their domain). */
+double tf_norm_q(double p);          /* standard normal quantile, p in (0,1) */
+double tf_z_level(double level);     /* normal quantile at (1 + level) / 2 */
+double tf_t_level(double level, double df); /* t_df quantile, same        */
+double tf_chisq1_q(double level);    /* chi-square(1) quantile */
+
+/* The quantiles of one interval level, computed once for many windows
+ * (the t quantile is kept for the last df asked for). */
+typedef struct tf_quant {
+  double level;
+  double z;  /* normal quantile at (1 + level) / 2 */
+  double c;  /* half the chi-square(1) quantile */
+  double df, tq;
+} tf_quant;
+void tf_quant_init(tf_quant *Q, double level);
+double tf_quant_t(tf_quant *Q, double df);
+
 /* Which intervals tf_growth_core computes (bit mask). */
 #define TF_WANT_WALD 0x1u
 #define TF_WANT_PROFILE 0x2u
@@ -61,7 +78,7 @@ typedef struct tf_gres {
  * Returns res->status. */
 int tf_growth_core(const struct twofold_fit_options *o, const double *y,
                    const double *off, size_t n, int wd0, unsigned want,
-                   const tf_gres *warm, tf_gres *res);
+                   const tf_gres *warm, struct tf_quant *Q, tf_gres *res);
 
 /* The Poisson fit of a complete window without offset from its sums
  * (lib/roll.c): Yk[k] is the sum of y[k], y[k+7], ... inside the window,
@@ -69,7 +86,8 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
  * read for the separation checks and the quasi-Poisson dispersion). */
 int tf_growth_geom(const struct twofold_fit_options *o, const double *y,
                    size_t n, int wd0, const double *Yk, double T,
-                   unsigned want, double r0, tf_gres *res);
+                   unsigned want, double r0, const double *hint,
+                   struct tf_quant *Q, tf_gres *res);
 
 /* Copy the interval of the given kind (DEFAULT resolved through
  * opt_kind, the options' kind). */
@@ -80,10 +98,10 @@ int tf_interval_pick(const tf_gres *res, int kind, int opt_kind, double *lo,
  * k = 0..L-1, log E0 = log sum e^{bk}, m = mean k, v = variance of k. */
 void tf_geom(double b, double L, double *logE0, double *m, double *v);
 
-/* Quantile helpers on validated arguments. */
-double tf_norm_q(double p);          /* standard normal quantile, p in (0,1) */
-double tf_t_q(double p, double df);  /* Student t quantile, df > 0 */
-double tf_chisq1_q(double level);    /* chi-square(1) quantile */
+
+/* Digamma and trigamma, x > 0 (lib/growth_fit.c). */
+double tf_digamma(double x);
+double tf_trigamma(double x);
 
 /* The library's resolution of TWOFOLD_INTERVAL_DEFAULT. */
 #define TF_DEFAULT_INTERVAL TWOFOLD_INTERVAL_SMALL

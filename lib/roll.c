@@ -6,12 +6,17 @@
  * missing days are fitted from sums: prefix sums taken with stride 7 give,
  * in O(1), the events of each weekday class in the window and sum t*y;
  * the class moments sum e^{r t}{1, t, t^2} are geometric sums in closed
- * form (METHODS.md B2/B3), so a window costs O(iterations x 7), not O(w).
+ * form (METHODS.md B2/B3), so a window costs O(iterations x 7), not O(w):
+ * the profile log-likelihood in r has only two class lengths, whose power
+ * sums share one exponential per evaluation (growth_fit.c, geom_fast);
+ * the estimate and the profile-interval ends are found by Halley steps
+ * started from the previous day's estimate and interval offsets.
  * The prefix sums hold whole numbers, which doubles add exactly while the
  * totals stay below 2^53; longer or larger series fall back to direct
  * sums.  Windows with missing days or offsets, and NB2 windows, use the
  * general fit (O(w) per iteration).  Every window starts from the
- * previous day's estimate.
+ * previous day's estimate (NB2: also its Cox-Reid adjustment of theta),
+ * and the interval quantiles are computed once per call.
  */
 #include "growth_internal.h"
 
@@ -61,6 +66,8 @@ int twofold_growth_roll(const twofold_fit_options *o, const double *y,
                   : kind == TWOFOLD_INTERVAL_PROFILE ? TF_WANT_PROFILE
                                                      : TF_WANT_SMALL;
   int wd0 = first_weekday - 1;
+  tf_quant Q;
+  tf_quant_init(&Q, o->level);
 
   /* missing-day counts, and stride-7 prefix sums for the fast path */
   size_t *miss = malloc((n + 1) * sizeof *miss);
@@ -126,8 +133,13 @@ int twofold_growth_roll(const twofold_fit_options *o, const double *y,
         Yk[k] = a0;
         T += a1 - (double)st * a0;
       }
+      double hint[2] = {NAN, NAN};
+      if (have_prev) {
+        hint[0] = prev->prof[0] - prev->r;
+        hint[1] = prev->prof[1] - prev->r;
+      }
       rc = tf_growth_geom(o, y + st, w, cw, Yk, T, want,
-                          have_prev ? prev_r : 0.0, cur);
+                          have_prev ? prev_r : 0.0, hint, &Q, cur);
     } else {
       if (have_prev) {
         /* the previous estimate, moved to this window's day 0 */
@@ -136,7 +148,7 @@ int twofold_growth_roll(const twofold_fit_options *o, const double *y,
         prev_st = st;
       }
       rc = tf_growth_core(o, y + st, offset ? offset + st : NULL, w, cw,
-                          want, have_prev ? prev : NULL, cur);
+                          want, have_prev ? prev : NULL, &Q, cur);
     }
     if (status)
       status[i] = rc;
