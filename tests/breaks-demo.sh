@@ -21,6 +21,10 @@
 # up to about two weeks; 10 days is the tolerance the test was specified
 # with, not fitted to the result.
 set -u
+if [ -n "${TWOFOLD_SANITIZER_BUILD:-}" ]; then
+  echo "*** SKIPPED under sanitizers (TWOFOLD_SANITIZER_BUILD=1): $(basename "$0") is a slow study; the normal build runs it ***"
+  exit 77
+fi
 : "${top_srcdir:?}" "${top_builddir:?}"
 LC_ALL=C
 export LC_ALL

@@ -26,6 +26,13 @@ with known growth, then checks:
     with headless Chromium.  Either tool missing is a FAIL (tools/setup
     installs both).
 """
+import os as _os
+import sys as _sys
+if _os.environ.get("TWOFOLD_SANITIZER_BUILD") or _os.environ.get("TWOFOLD_SKIP_BINDINGS"):
+    print("*** SKIPPED under sanitizers: %s is slow or loads outside programs;"
+          " the normal build runs it ***" % _os.path.basename(__file__))
+    _sys.exit(77)
+
 import json
 import math
 import os
