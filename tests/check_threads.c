@@ -1,5 +1,6 @@
 /* SPDX-License-Identifier: GPL-3.0-or-later */
-/* Thread safety: fits run from 8 threads at once give results identical,
+/* Thread safety: fits and changepoint posteriors run from 8 threads at
+ * once give results identical,
  * bit for bit, to the same fits run serially.  The header promises that
  * distinct handles may be used from distinct threads at the same time (no
  * global state); this test also runs under ThreadSanitizer (make
@@ -32,6 +33,12 @@ typedef struct result {
   int roll_rc;
   double rate[NDAYS], lo[NDAYS], hi[NDAYS];
   int status[NDAYS];
+  /* changepoint posterior (kink on series 8 and 32, else jump or
+   * level) */
+  int cp_rc;
+  double p_change[NDAYS], g_mean[NDAYS], g_lo[NDAYS], g_hi[NDAYS];
+  double log_evidence;
+  size_t map_count;
 } result;
 
 static double series[NSERIES][NDAYS];
@@ -64,7 +71,8 @@ static void make_series(void) {
 
 /* All fits of series s into *res with options of one thread. */
 static void run_series(int s, twofold_fit_options *const opts[3],
-                       twofold_fit *fit, result *res) {
+                       twofold_fit *fit, twofold_cp_options *const cpo[3],
+                       twofold_changes *ch, result *res) {
   memset(res, 0, sizeof *res);
   for (int m = 0; m < 3; m++) {
     /* the last 28 days; ISO weekday of their first day */
@@ -89,6 +97,15 @@ static void run_series(int s, twofold_fit_options *const opts[3],
                                            : TWOFOLD_ALIGN_TRAILING,
                                      res->rate, res->lo, res->hi,
                                      res->status);
+  int kind = s % 24 == 8 ? 0 : 1 + s % 2; /* kink, jump, level */
+  res->cp_rc = twofold_changes_run(ch, cpo[kind], series[s], NDAYS,
+                                   first_weekday[s]);
+  if (res->cp_rc == 0) {
+    twofold_changes_p_change(ch, res->p_change);
+    twofold_changes_growth(ch, res->g_mean, res->g_lo, res->g_hi);
+    res->log_evidence = twofold_changes_log_evidence(ch);
+    res->map_count = twofold_changes_map_count(ch);
+  }
 }
 
 typedef struct worker {
@@ -101,7 +118,14 @@ static void *work(void *arg) {
   worker *w = arg;
   twofold_fit_options *opts[3] = {NULL, NULL, NULL};
   twofold_fit *fit = NULL;
-  w->failed = twofold_fit_new(&fit) != 0;
+  twofold_cp_options *cpo[3] = {NULL, NULL, NULL};
+  twofold_changes *ch = NULL;
+  w->failed = twofold_fit_new(&fit) != 0 || twofold_changes_new(&ch) != 0;
+  static const int kinds[3] = {TWOFOLD_CP_KINK, TWOFOLD_CP_JUMP,
+                               TWOFOLD_CP_LEVEL};
+  for (int k = 0; k < 3 && !w->failed; k++)
+    w->failed = twofold_cp_options_new(&cpo[k]) != 0 ||
+                twofold_cp_options_set_kind(cpo[k], kinds[k]) != 0;
   for (int m = 0; m < 3 && !w->failed; m++)
     w->failed = twofold_fit_options_new(&opts[m]) != 0 ||
                 twofold_fit_options_set_model(opts[m], m) != 0;
@@ -109,10 +133,13 @@ static void *work(void *arg) {
    * series are fitted at the same moment. */
   for (int k = 0; k < NSERIES && !w->failed; k++) {
     int s = (k * 7 + w->id * 5) % NSERIES;
-    run_series(s, opts, fit, &w->out[s]);
+    run_series(s, opts, fit, cpo, ch, &w->out[s]);
   }
-  for (int m = 0; m < 3; m++)
+  for (int m = 0; m < 3; m++) {
     twofold_fit_options_free(opts[m]);
+    twofold_cp_options_free(cpo[m]);
+  }
+  twofold_changes_free(ch);
   twofold_fit_free(fit);
   return NULL;
 }
@@ -126,6 +153,17 @@ START_TEST(serial_reference_is_sane) {
   ck_assert_int_ge(ok, NSERIES / 2);
   ck_assert_int_eq(serial[7].fit_status[0], TWOFOLD_EZERO);
   ck_assert_int_eq(serial[0].roll_rc, 0);
+  /* changepoint posteriors ran (kink on series 8, jump on 1, level on 2)
+   * and give probabilities */
+  int cp_ok = 0;
+  for (int s = 0; s < NSERIES; s++)
+    cp_ok += serial[s].cp_rc == 0;
+  ck_assert_int_ge(cp_ok, NSERIES / 2);
+  ck_assert_int_eq(serial[8].cp_rc, 0);
+  ck_assert_int_eq(serial[1].cp_rc, 0);
+  ck_assert_int_eq(serial[2].cp_rc, 0);
+  for (int t = 0; t < NDAYS; t++)
+    ck_assert(serial[8].p_change[t] >= 0.0 && serial[8].p_change[t] <= 1.0);
 }
 END_TEST
 
