@@ -37,6 +37,15 @@ char *tf_strdup(const char *s);
 /* 1 if v is NaN or a whole number in [0, 2^53]. */
 int tf_count_ok(double v);
 
+/* log|Gamma(x)| without touching the C library's global signgam (lgamma
+ * is not thread-safe; lgamma_r is the reentrant form in glibc, musl and
+ * the BSDs, declared here because strict C11 headers hide it). */
+double lgamma_r(double x, int *sign);
+static inline double tf_lgamma(double x) {
+  int sign;
+  return lgamma_r(x, &sign);
+}
+
 /* Test for NaN without depending on -ffast-math semantics. */
 static inline int tf_isnan(double v) { return v != v; }
 

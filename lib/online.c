@@ -193,7 +193,7 @@ static int add_day(twofold_online *on, double y) {
   d->cty[t + 1] = d->cty[t] + (m ? 0 : (double)t * y);
   int c = tf_cls(d, t);
   d->cw[t + 1] = d->cw[t] + (m ? 0 : d->wcls[c]);
-  double cst = m ? 0 : (y * d->delta[c] - lgamma(y + 1)) / d->phi;
+  double cst = m ? 0 : (y * d->delta[c] - tf_lgamma(y + 1)) / d->phi;
   d->cconst[t + 1] = d->cconst[t] + cst;
   d->n = t + 1;
   const tf_lenprior *lp = &on->lp;

@@ -256,7 +256,7 @@ double tf_seg_level(const tf_cpdata *d, size_t s, size_t e, double *lvl) {
   double ap = d->alpha + Y / d->phi, bp = d->beta + W / d->phi;
   if (lvl)
     *lvl = ap / bp;
-  return d->alpha * log(d->beta) - lgamma(d->alpha) + lgamma(ap) -
+  return d->alpha * log(d->beta) - tf_lgamma(d->alpha) + tf_lgamma(ap) -
          ap * log(bp);
 }
 
@@ -329,7 +329,7 @@ double tf_seg_jump(const tf_cpdata *d, size_t s, size_t e, double *bio,
   *bvar = -1 / f2;
   if (lvl)
     *lvl = ap / exp(lbp);
-  return f + d->alpha * log(d->beta) - lgamma(d->alpha) + lgamma(ap) -
+  return f + d->alpha * log(d->beta) - tf_lgamma(d->alpha) + tf_lgamma(ap) -
          log(d->rsd) - 0.5 * log(-f2);
   /* the 1/sqrt(2 pi) of N(b) cancels the sqrt(2 pi) of the Laplace step */
 }
@@ -345,7 +345,7 @@ static double lsurv_nb(size_t len, int m, int k, double q) {
   /* P(Bin(x, q) < k) */
   double acc = -INFINITY;
   for (int i = 0; i < k; i++)
-    acc = tf_lse(acc, lgamma(x + 1) - lgamma(i + 1.0) - lgamma(x - i + 1) +
+    acc = tf_lse(acc, tf_lgamma(x + 1) - tf_lgamma(i + 1.0) - tf_lgamma(x - i + 1) +
                           i * log(q) + (x - i) * log1p(-q));
   return acc;
 }
@@ -354,7 +354,7 @@ static double lpmf_nb(size_t len, int m, int k, double q) {
   if (len < (size_t)m)
     return -INFINITY;
   double x = (double)(len - (size_t)m + (size_t)k);
-  return lgamma(x) - lgamma((double)k) - lgamma(x - k + 1) + k * log(q) +
+  return tf_lgamma(x) - tf_lgamma((double)k) - tf_lgamma(x - k + 1) + k * log(q) +
          (x - k) * log1p(-q);
 }
 
@@ -745,7 +745,7 @@ int tf_cp_prepare(tf_cpdata *d, const struct twofold_cp_options *o,
     if (!tf_isnan(y[t])) {
       int c = tf_cls(d, t);
       W += d->wcls[c];
-      cst += (y[t] * d->delta[c] - lgamma(y[t] + 1)) / d->phi;
+      cst += (y[t] * d->delta[c] - tf_lgamma(y[t] + 1)) / d->phi;
     }
     d->cw[t + 1] = W;
     d->cconst[t + 1] = cst;
