@@ -283,11 +283,35 @@ static void buf_putc(buf *b, char c) { buf_add(b, &c, 1); }
 
 /* The shortest %.Ng text (N = 1..17) that reads back as v exactly.
  * C11's strtod is correctly rounded on glibc, so this is exact. */
+static int round_trips(char *out, size_t size, int p, double v) {
+  snprintf(out, size, "%.*g", p, v);
+  return strtod(out, NULL) == v;
+}
+
+/* The fewest significant digits (1..17) that read back as v.  Away from
+ * powers of two, reading back is monotone in the digits (p + 1 correctly
+ * rounded digits are at least as close to v as p digits, and v's rounding
+ * interval is symmetric), so a bisection finds the same count as trying
+ * 1, 2, ... in turn; at a power of two the interval is lopsided and the
+ * digits are tried in turn. */
 static void fmt_shortest(char *out, size_t size, double v) {
-  for (int p = 1; p <= 17; p++) {
-    snprintf(out, size, "%.*g", p, v);
-    if (strtod(out, NULL) == v)
-      break;
+  int e;
+  if (frexp(v, &e) == 0.5 || frexp(v, &e) == -0.5 || v == 0) {
+    for (int p = 1; p <= 17; p++)
+      if (round_trips(out, size, p, v))
+        break;
+  } else {
+    int lo = 1, hi = 17, held = 0; /* held: the digits now in out */
+    while (lo < hi) {
+      int mid = (lo + hi) / 2;
+      held = mid;
+      if (round_trips(out, size, mid, v))
+        hi = mid;
+      else
+        lo = mid + 1;
+    }
+    if (held != hi)
+      snprintf(out, size, "%.*g", hi, v);
   }
   /* %g writes 90 as "9e+01": a whole number below 1e17 reads better in
    * full, and "%.0f" of it is exact. */

@@ -15,8 +15,10 @@
 #include <errno.h>
 #include <getopt.h>
 #include <math.h>
+#include <pthread.h>
 #include <stdlib.h>
 #include <string.h>
+#include <unistd.h>
 
 #define PROGRAM "twofold"
 /* The label of the sum over all regions. */
@@ -24,6 +26,12 @@
 /* Default window: three whole weeks (see twofold(1)). */
 #define WINDOW_DEFAULT 21
 #define WINDOW_MAX 3660
+/* A batch of targets, estimated on the threads while the previous batch
+ * is written: at most BATCH_TARGETS targets and (unless one target has
+ * more) BATCH_WINDOWS windows. */
+#define BATCH_TARGETS 256
+#define BATCH_WINDOWS 65536
+#define THREADS_MAX 64
 
 typedef struct options {
   int format;
@@ -49,7 +57,18 @@ typedef struct options {
   const char *svg; /* --svg FILE: chart.c */
   int have_gi;
   double gi_mean, gi_sd;
+  int threads; /* regions estimated at once */
 } options;
+
+/* The default number of threads: processors online, 1..4. */
+static int default_threads(void) {
+  long c = sysconf(_SC_NPROCESSORS_ONLN);
+  if (c < 1)
+    c = 1;
+  if (c > 4)
+    c = 4;
+  return (int)c;
+}
 
 static void usage(FILE *f) {
   fprintf(f,
@@ -77,6 +96,8 @@ static void usage(FILE *f) {
 "  -r, --region=NAME          only this region (repeatable; " TOTAL_LABEL " names\n"
 "                             the sum)\n"
 "      --no-total             leave out the sum over regions\n"
+"      --threads=N            regions estimated at once (default: processors\n"
+"                             online, at most 4; the output is the same)\n"
 "  -s, --summary              describe the input instead: dates, days,\n"
 "                             missing days and total count per region\n"
 "Input:\n"
@@ -107,7 +128,8 @@ enum {
   OPT_LAYOUT,
   OPT_REGION_COLUMN,
   OPT_DATE_COLUMN,
-  OPT_SVG
+  OPT_SVG,
+  OPT_THREADS
 };
 
 static const struct option long_options[] = {
@@ -124,6 +146,7 @@ static const struct option long_options[] = {
     {"every-day", no_argument, NULL, 'e'},
     {"region", required_argument, NULL, 'r'},
     {"no-total", no_argument, NULL, OPT_NO_TOTAL},
+    {"threads", required_argument, NULL, OPT_THREADS},
     {"summary", no_argument, NULL, 's'},
     {"count", required_argument, NULL, 'c'},
     {"layout", required_argument, NULL, OPT_LAYOUT},
@@ -147,6 +170,7 @@ static int parse_args(int argc, char **argv, options *o) {
   o->weekday = 1;
   o->min_events = TWOFOLD_MIN_EVENTS_DEFAULT;
   o->layout = TWOFOLD_LAYOUT_AUTO;
+  o->threads = default_threads();
   o->regions = calloc((size_t)argc, sizeof *o->regions);
   if (o->regions == NULL) {
     tf_cli_msg("out of memory");
@@ -212,6 +236,11 @@ static int parse_args(int argc, char **argv, options *o) {
       break;
     case OPT_NO_TOTAL:
       o->no_total = 1;
+      break;
+    case OPT_THREADS:
+      if ((st = tf_cli_parse_long("--threads", optarg, 1, THREADS_MAX, &v)))
+        return st;
+      o->threads = (int)v;
       break;
     case 's':
       o->summary = 1;
@@ -409,10 +438,12 @@ typedef struct estimate {
   double R, R_lo, R_hi;
 } estimate;
 
-/* Work space for one window. */
+/* Work space of one thread: a window, the outputs of
+ * twofold_growth_roll for it, and the thread's own options. */
 typedef struct work {
   double *y, *off;
-  twofold_fit *fit;
+  double *rate, *lo, *hi;
+  int *status;
   twofold_fit_options *fo;
   twofold_gi *gi;
 } work;
@@ -475,22 +506,26 @@ static int estimate_window(const options *o, work *wk, const target *t,
     else
       e->events += y;
   }
-  int rc = twofold_growth_fit(wk->fit, wk->fo, wk->y, ov ? wk->off : NULL, w,
-                              twofold_date_weekday(e->start));
+  /* One window of twofold_growth_roll: the fit of twofold_growth_fit,
+   * but only the interval of the options' kind is computed (not every
+   * kind).  The offset is always given (zeros without --offset): the
+   * library's fit is then the same general fit as twofold_growth_fit's,
+   * with log mu_t + 0 for each day. */
+  int rc = twofold_growth_roll(wk->fo, wk->y, wk->off, w,
+                               twofold_date_weekday(e->start), w,
+                               TWOFOLD_ALIGN_TRAILING, wk->rate, wk->lo,
+                               wk->hi, wk->status);
+  if (rc != 0)
+    return rc;
+  rc = wk->status[w - 1];
   if (rc == TWOFOLD_ENOMEM || rc == TWOFOLD_EINVAL)
     return rc;
   e->status = rc;
   if (rc != 0)
     return 0;
-  e->r = twofold_fit_rate(wk->fit);
-  rc = twofold_fit_interval(wk->fit, TWOFOLD_INTERVAL_DEFAULT, &e->lo,
-                            &e->hi);
-  if (rc == TWOFOLD_ENOMEM)
-    return rc;
-  if (rc != 0) {
-    e->status = rc;
-    e->lo = e->hi = NAN;
-  }
+  e->r = wk->rate[w - 1];
+  e->lo = wk->lo[w - 1];
+  e->hi = wk->hi[w - 1];
   if (isfinite(e->lo) && isfinite(e->hi) && isfinite(e->r)) {
     if (twofold_doubling_time(e->r, e->lo, e->hi, &e->t, &e->t_lo, &e->t_hi,
                               &e->sense) != 0)
@@ -655,37 +690,25 @@ static int present_range(const target *t, int32_t *lo, int32_t *hi) {
   return 1;
 }
 
-static int write_target(const options *o, work *wk, tf_writer *w,
-                        const target *t) {
+/* The days whose windows target t reports: from .. end. */
+static void target_days(const options *o, const target *t, int32_t *from,
+                        int32_t *end) {
   int32_t lo = 0, hi = 0;
   int any = present_range(t, &lo, &hi);
-  int32_t end = o->have_as_of ? o->as_of : hi;
+  *end = o->have_as_of ? o->as_of : hi;
   if (!any && !o->have_as_of) {
     /* No count at all: one row says so. */
-    end = twofold_series_length(t->s) > 0
-              ? twofold_series_first_day(t->s) +
-                    (int32_t)(twofold_series_length(t->s) - 1)
-              : 0;
+    *end = twofold_series_length(t->s) > 0
+               ? twofold_series_first_day(t->s) +
+                     (int32_t)(twofold_series_length(t->s) - 1)
+               : 0;
   }
-  int32_t from = end;
+  *from = *end;
   if (o->every_day && any) {
-    from = lo + (int32_t)o->window - 1;
-    if (from > end)
-      from = end;
+    *from = lo + (int32_t)o->window - 1;
+    if (*from > *end)
+      *from = *end;
   }
-  for (int32_t d = from; d <= end; d++) {
-    estimate e;
-    int rc = estimate_window(o, wk, t, d, &e);
-    if (rc != 0) {
-      tf_cli_msg("%s: %s", twofold_series_region(t->s),
-                 rc == TWOFOLD_ENOMEM ? "out of memory"
-                                      : twofold_strerror(rc));
-      return TF_EXIT_OUTPUT;
-    }
-    if (write_estimate(o, w, t, &e) != 0)
-      return -1;
-  }
-  return TF_EXIT_OK;
 }
 
 static int work_init(const options *o, work *wk) {
@@ -693,11 +716,14 @@ static int work_init(const options *o, work *wk) {
   size_t w = (size_t)o->window;
   wk->y = malloc(w * sizeof *wk->y);
   wk->off = malloc(w * sizeof *wk->off);
-  if (wk->y == NULL || wk->off == NULL)
+  wk->rate = malloc(w * sizeof *wk->rate);
+  wk->lo = malloc(w * sizeof *wk->lo);
+  wk->hi = malloc(w * sizeof *wk->hi);
+  wk->status = malloc(w * sizeof *wk->status);
+  if (wk->y == NULL || wk->off == NULL || wk->rate == NULL ||
+      wk->lo == NULL || wk->hi == NULL || wk->status == NULL)
     return TWOFOLD_ENOMEM;
-  int rc = twofold_fit_new(&wk->fit);
-  if (rc == 0)
-    rc = twofold_fit_options_new(&wk->fo);
+  int rc = twofold_fit_options_new(&wk->fo);
   if (rc == 0)
     rc = twofold_fit_options_set_model(wk->fo, o->model);
   if (rc == 0)
@@ -716,9 +742,206 @@ static int work_init(const options *o, work *wk) {
 static void work_free(work *wk) {
   free(wk->y);
   free(wk->off);
-  twofold_fit_free(wk->fit);
+  free(wk->rate);
+  free(wk->lo);
+  free(wk->hi);
+  free(wk->status);
   twofold_fit_options_free(wk->fo);
   twofold_gi_free(wk->gi);
+}
+
+/* ------------------------------------------------------------------ */
+/* Regions on several threads                                          */
+/* ------------------------------------------------------------------ */
+
+/* The estimates of one target, computed by any thread and written by the
+ * main thread in input order: the output does not depend on the number of
+ * threads or on which thread computed what. */
+typedef struct result {
+  estimate *e; /* n windows, days from .. from+n-1                    */
+  size_t n;
+  size_t done; /* windows estimated (< n after a failure)              */
+  int rc;      /* 0, or the failure after `done` windows               */
+} result;
+
+/* A batch: targets first .. first+n-1, handed out one at a time. */
+typedef struct batch {
+  const options *o;
+  const target *targets;
+  result *res; /* n, indexed from first                              */
+  size_t first, n;
+  pthread_mutex_t lock;
+  size_t next;
+} batch;
+
+typedef struct worker {
+  batch *b;
+  work *wk;
+  pthread_t tid;
+} worker;
+
+static void estimate_target(const options *o, work *wk, const target *t,
+                            result *r) {
+  int32_t from, end;
+  target_days(o, t, &from, &end);
+  for (r->done = 0; r->done < r->n; r->done++) {
+    int rc = estimate_window(o, wk, t, from + (int32_t)r->done,
+                             &r->e[r->done]);
+    if (rc != 0) {
+      r->rc = rc;
+      return;
+    }
+  }
+}
+
+static void *worker_main(void *arg) {
+  worker *wr = arg;
+  batch *b = wr->b;
+  for (;;) {
+    pthread_mutex_lock(&b->lock);
+    size_t i = b->next;
+    if (i < b->n)
+      b->next++;
+    pthread_mutex_unlock(&b->lock);
+    if (i >= b->n)
+      return NULL;
+    estimate_target(b->o, wr->wk, &b->targets[b->first + i], &b->res[i]);
+  }
+}
+
+/* Size the batch of targets from `first` (at most BATCH_WINDOWS windows,
+ * at least one target) and allocate its results; 0 or TWOFOLD_ENOMEM. */
+static int batch_alloc(const options *o, const target *targets,
+                       size_t ntargets, size_t first, batch *b) {
+  b->o = o;
+  b->targets = targets;
+  b->first = first;
+  b->next = 0;
+  size_t windows = 0, n = 0;
+  while (first + n < ntargets) {
+    int32_t from, end;
+    target_days(o, &targets[first + n], &from, &end);
+    size_t k = (size_t)((int64_t)end - from + 1);
+    if (n > 0 && (windows + k > BATCH_WINDOWS || n == BATCH_TARGETS))
+      break;
+    windows += k;
+    n++;
+  }
+  b->n = n;
+  b->res = calloc(n ? n : 1, sizeof *b->res);
+  estimate *e = malloc((windows ? windows : 1) * sizeof *e);
+  if (b->res == NULL || e == NULL) {
+    free(b->res);
+    free(e);
+    b->res = NULL;
+    return TWOFOLD_ENOMEM;
+  }
+  for (size_t i = 0; i < n; i++) {
+    int32_t from, end;
+    target_days(o, &targets[first + i], &from, &end);
+    b->res[i].e = e;
+    b->res[i].n = (size_t)((int64_t)end - from + 1);
+    e += b->res[i].n;
+  }
+  return 0;
+}
+
+static void batch_free(batch *b) {
+  if (b->res != NULL)
+    free(b->res[0].e);
+  free(b->res);
+  b->res = NULL;
+}
+
+/* Start the batch on the workers (nw of them, with their own work);
+ * returns the number of threads started (0: the caller computes it). */
+static int batch_start(batch *b, worker *wr, work *wk, int nw) {
+  if (nw <= 1 || pthread_mutex_init(&b->lock, NULL) != 0)
+    return 0;
+  int started = 0;
+  for (int k = 0; k < nw && (size_t)k < b->n; k++) {
+    wr[k].b = b;
+    wr[k].wk = &wk[k];
+    if (pthread_create(&wr[k].tid, NULL, worker_main, &wr[k]) != 0)
+      break;
+    started++;
+  }
+  if (started == 0)
+    pthread_mutex_destroy(&b->lock);
+  return started;
+}
+
+static void batch_finish(batch *b, worker *wr, work *wk, int started) {
+  if (started == 0) {
+    for (size_t i = 0; i < b->n; i++)
+      estimate_target(b->o, &wk[0], &b->targets[b->first + i], &b->res[i]);
+    return;
+  }
+  for (int k = 0; k < started; k++)
+    pthread_join(wr[k].tid, NULL);
+  pthread_mutex_destroy(&b->lock);
+}
+
+/* Write a computed batch; TF_EXIT_OK, -1 (write error) or an exit
+ * status after a failed estimate. */
+static int batch_write(const options *o, tf_writer *w, const batch *b) {
+  for (size_t i = 0; i < b->n; i++) {
+    const result *r = &b->res[i];
+    const target *t = &b->targets[b->first + i];
+    for (size_t k = 0; k < r->done; k++)
+      if (write_estimate(o, w, t, &r->e[k]) != 0)
+        return -1;
+    if (r->rc != 0) {
+      tf_cli_msg("%s: %s", twofold_series_region(t->s),
+                 r->rc == TWOFOLD_ENOMEM ? "out of memory"
+                                         : twofold_strerror(r->rc));
+      return TF_EXIT_OUTPUT;
+    }
+  }
+  return TF_EXIT_OK;
+}
+
+/* Estimate and write every target: batches of targets computed on the
+ * threads while the previous batch is written. */
+static int write_growth(const options *o, work *wk, int nw, tf_writer *w,
+                        const target *targets, size_t ntargets) {
+  worker *wr = calloc((size_t)nw, sizeof *wr);
+  batch cur, prev;
+  memset(&cur, 0, sizeof cur);
+  memset(&prev, 0, sizeof prev);
+  int have_prev = 0;
+  int st = TF_EXIT_OK;
+  if (wr == NULL) {
+    tf_cli_msg("out of memory");
+    return TF_EXIT_OUTPUT;
+  }
+  size_t next = 0;
+  while (st == TF_EXIT_OK && (next < ntargets || have_prev)) {
+    int started = -1;
+    if (next < ntargets) {
+      if (batch_alloc(o, targets, ntargets, next, &cur) != 0) {
+        tf_cli_msg("out of memory");
+        st = TF_EXIT_OUTPUT;
+        break;
+      }
+      next += cur.n;
+      started = batch_start(&cur, wr, wk, nw);
+    }
+    if (have_prev) {
+      st = batch_write(o, w, &prev);
+      batch_free(&prev);
+      have_prev = 0;
+    }
+    if (started >= 0) {
+      batch_finish(&cur, wr, wk, started);
+      prev = cur;
+      memset(&cur, 0, sizeof cur);
+      have_prev = 1;
+    }
+  }
+  batch_free(&prev);
+  free(wr);
+  return st;
 }
 
 /* ------------------------------------------------------------------ */
@@ -754,8 +977,8 @@ static int run(const options *o, char **files, size_t nfiles) {
   size_t ntargets = 0;
   tf_output *out = NULL;
   tf_writer *w = NULL;
-  work wk;
-  memset(&wk, 0, sizeof wk);
+  work *wk = NULL;
+  int nw = 0;
   int st;
 
   if (make_read_options(o, &ro) != 0) {
@@ -769,17 +992,29 @@ static int run(const options *o, char **files, size_t nfiles) {
       TF_EXIT_OK)
     goto done;
   if (!o->summary) {
-    int rc = work_init(o, &wk);
-    if (rc != 0) {
-      tf_cli_msg("%s", twofold_strerror(rc));
-      st = rc == TWOFOLD_ENOMEM ? TF_EXIT_OUTPUT : TF_EXIT_USAGE;
+    /* One work space, with its own options, per thread. */
+    nw = o->threads;
+    if ((size_t)nw > ntargets)
+      nw = ntargets ? (int)ntargets : 1;
+    if ((wk = calloc((size_t)nw, sizeof *wk)) == NULL) {
+      tf_cli_msg("out of memory");
+      st = TF_EXIT_OUTPUT;
+      nw = 0;
       goto done;
+    }
+    for (int k = 0; k < nw; k++) {
+      int rc = work_init(o, &wk[k]);
+      if (rc != 0) {
+        tf_cli_msg("%s", twofold_strerror(rc));
+        st = rc == TWOFOLD_ENOMEM ? TF_EXIT_OUTPUT : TF_EXIT_USAGE;
+        goto done;
+      }
     }
   }
 
   /* The chart (chart.c), written whole before the records. */
   if (o->svg != NULL) {
-    tf_chart *ch = tf_chart_new(wk.fo, (size_t)o->window, o->level,
+    tf_chart *ch = tf_chart_new(wk[0].fo, (size_t)o->window, o->level,
                                 o->have_as_of, o->as_of);
     for (size_t i = 0; ch != NULL && i < ntargets; i++)
       tf_chart_add(ch, targets[i].s, targets[i].col, targets[i].ocol,
@@ -810,11 +1045,11 @@ static int run(const options *o, char **files, size_t nfiles) {
     st = TF_EXIT_OUTPUT;
     goto done;
   }
-  for (size_t i = 0; i < ntargets && st == TF_EXIT_OK; i++) {
-    if (o->summary)
+  if (o->summary) {
+    for (size_t i = 0; i < ntargets && st == TF_EXIT_OK; i++)
       st = write_summary(w, &targets[i]) == 0 ? TF_EXIT_OK : -1;
-    else
-      st = write_target(o, &wk, w, &targets[i]);
+  } else {
+    st = write_growth(o, wk, nw, w, targets, ntargets);
   }
   if (st == TF_EXIT_OK && tf_writer_finish(w) != 0)
     st = -1;
@@ -832,7 +1067,9 @@ static int run(const options *o, char **files, size_t nfiles) {
 done:
   tf_output_abort(out);
   tf_writer_free(w);
-  work_free(&wk);
+  for (int k = 0; k < nw; k++)
+    work_free(&wk[k]);
+  free(wk);
   free(targets);
   twofold_series_free(total);
   twofold_set_free(set);
