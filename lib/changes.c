@@ -456,6 +456,23 @@ static inline double seg_prior(const twofold_changes *ch, size_t s, size_t e) {
   return e + 1 < ch->n ? tf_lg(&ch->lp, s, L) : tf_lsurv(&ch->lp, s, L);
 }
 
+/* A sum of exponentials kept as e^m * s with m the largest exponent so far:
+ * one exp per term instead of the exp and log1p of a pairwise tf_lse. */
+static inline void lsum_add(double *m, double *s, double x) {
+  if (x == -INFINITY)
+    return;
+  if (x <= *m) {
+    *s += exp(x - *m);
+  } else {
+    *s = *m == -INFINITY ? 1 : *s * exp(*m - x) + 1;
+    *m = x;
+  }
+}
+
+static inline double lsum_log(double m, double s) {
+  return m == -INFINITY ? -INFINITY : m + log(s);
+}
+
 static int backward(twofold_changes *ch) {
   size_t n = ch->n;
   const tf_cpdata *d = &ch->d;
@@ -463,8 +480,8 @@ static int backward(twofold_changes *ch) {
   ch->Q[n] = 0;
   /* The cache is filled from t = n-1 down, contiguous per start. */
   for (size_t t = n; t-- > 0;) {
-    double acc = -INFINITY;
-    size_t run = 0, e = t;
+    double am = -INFINITY, as = 0; /* running sum e^am * as */
+    size_t run = 0, e = t, nterm = 0;
     double b = d->rmean, bprev = NAN;
     ch->off[t] = ch->ncache;
     for (; e < n; e++) {
@@ -487,10 +504,17 @@ static int backward(twofold_changes *ch) {
       if (rc)
         return rc;
       double term = lp + lg + ch->Q[e + 1];
-      acc = tf_lse(acc, term);
-      if (e + 1 < n && L >= (size_t)ch->opt.min_seg && acc > -INFINITY) {
-        double bound = lp + tf_lsurv(&ch->lp, t, L) + ch->Q[e + 1];
-        if (bound < leps + acc) {
+      if (term > -INFINITY) {
+        lsum_add(&am, &as, term);
+        nterm++;
+      }
+      if (e + 1 < n && L >= (size_t)ch->opt.min_seg && am > -INFINITY) {
+        /* bound < eps * sum, with log sum in [am, am + log nterm]: the
+         * log is needed only between the two */
+        double bound = lp + tf_lsurv(&ch->lp, t, L) + ch->Q[e + 1] - leps;
+        int below = bound < am ||
+                    (bound < am + log((double)nterm) && bound < am + log(as));
+        if (below) {
           if (++run >= PRUNE_RUN)
             break;
         } else {
@@ -499,7 +523,7 @@ static int backward(twofold_changes *ch) {
       }
     }
     ch->stop[t] = e < n ? e : n - 1;
-    ch->Q[t] = acc;
+    ch->Q[t] = lsum_log(am, as);
   }
   return 0;
 }
@@ -513,60 +537,120 @@ static int forward_and_results(twofold_changes *ch) {
   int K = ch->opt.max_changes;
   double lZ = ch->Q[0];
   ch->logZ = lZ;
-  for (size_t i = 0; i <= n; i++)
-    ch->Fa[i] = -INFINITY;
+  /* forward pass: Fa[t] accumulated as e^fm[t] * fs[t] while the starts
+   * before t push their terms; final when the scan reaches t */
+  double *fm = malloc((n + 1) * sizeof(double));
+  double *fs = malloc((n + 1) * sizeof(double));
+  if (!fm || !fs) {
+    free(fm);
+    free(fs);
+    return TWOFOLD_ENOMEM;
+  }
+  for (size_t i = 0; i <= n; i++) {
+    fm[i] = -INFINITY;
+    fs[i] = 0;
+  }
   ch->Fa[0] = 0;
   for (size_t s = 0; s < n; s++) {
-    if (ch->Fa[s] == -INFINITY)
+    if (s > 0)
+      ch->Fa[s] = lsum_log(fm[s], fs[s]);
+    if (ch->Fa[s] == -INFINITY || n < 2)
       continue;
     size_t top = ch->stop[s] < n - 1 ? ch->stop[s] : n - 2;
-    if (n < 2)
-      break;
-    for (size_t e = s; e <= top && e + 1 < n; e++) {
-      double lp = ch->clogP[cidx(ch, s, e)];
-      double v = ch->Fa[s] + lp + tf_lg(&ch->lp, s, e - s + 1);
-      ch->Fa[e + 1] = tf_lse(ch->Fa[e + 1], v);
+    const double *clp = ch->clogP + ch->off[s] - s;
+    for (size_t e = s; e <= top; e++) {
+      double v = ch->Fa[s] + clp[e] + tf_lg(&ch->lp, s, e - s + 1);
+      lsum_add(&fm[e + 1], &fs[e + 1], v);
     }
   }
-  /* change probabilities */
+  ch->Fa[n] = lsum_log(fm[n], fs[n]);
+  free(fm);
+  free(fs);
+  /* change probabilities; pr (unclamped) for the segment weights below */
+  double *pr = malloc((n + 1) * sizeof(double));
+  if (!pr)
+    return TWOFOLD_ENOMEM;
   ch->pch[0] = 0;
   for (size_t i = 1; i < n; i++) {
     double v = exp(ch->Fa[i] + ch->Q[i] - lZ);
+    pr[i] = v;
     ch->pch[i] = v > 1 ? 1 : v;
   }
-  /* growth: segment weights into difference arrays (METHODS A2) */
+  /* One pass over the candidates.  W = Pr(segment [s, e] | a segment
+   * ends at e) = F(s-1) P(s,e) g(e-s+1) / F(e) for e < n-1, and for the
+   * last segment Pr([s, n-1] | y); the segment probability (METHODS A2) is
+   * then W Pr(change on day e+1 | y), one exp per candidate.
+   * Growth: segment weights into difference arrays (METHODS A2).
+   * Number of changes (METHODS A2): the ratios r_j(t) = F_j(t) / F(t) obey
+   * r_{j+1}(e+1) = sum_s r_j(s) W(s, e), and Pr(K = j | y) =
+   * sum_s r_j(s) W(s, n-1), all in [0, 1], so no logarithms are needed. */
   double *d0 = calloc(n + 1, sizeof(double));
   double *d1 = calloc(n + 1, sizeof(double));
   double *d2 = calloc(n + 1, sizeof(double));
-  if (!d0 || !d1 || !d2) {
+  double *rj = calloc((size_t)(K + 1) * (n + 1), sizeof(double));
+  if (!d0 || !d1 || !d2 || !rj) {
     free(d0);
     free(d1);
     free(d2);
+    free(rj);
+    free(pr);
     return TWOFOLD_ENOMEM;
   }
+  for (int m = 0; m <= K; m++)
+    ch->kprob[m] = 0;
+  rj[0] = 1; /* r_0(0): no change before day 0 */
   int jump = ch->d.kind == TWOFOLD_CP_JUMP;
+  size_t np1 = n + 1;
   for (size_t s = 0; s < n; s++) {
     if (ch->Fa[s] == -INFINITY)
       continue;
+    /* r_j(s) is non-zero only for j in [jlo, jhi] */
+    int jlo = -1, jhi = -1;
+    for (int j = 0; j <= K; j++)
+      if (rj[(size_t)j * np1 + s] != 0) {
+        if (jlo < 0)
+          jlo = j;
+        jhi = j;
+      }
     for (size_t e = s; e <= ch->stop[s]; e++) {
       size_t k = cidx(ch, s, e);
       double lp = ch->clogP[k];
       if (lp == -INFINITY)
         continue;
-      double w = ch->Fa[s] + lp + seg_prior(ch, s, e) +
-                 (e + 1 < n ? ch->Q[e + 1] : 0) - lZ;
-      w = exp(w);
-      if (w == 0)
+      double W, w;
+      if (e + 1 < n) {
+        W = exp(ch->Fa[s] + lp + tf_lg(&ch->lp, s, e - s + 1) -
+                ch->Fa[e + 1]);
+        w = W * pr[e + 1];
+      } else {
+        W = exp(ch->Fa[s] + lp + tf_lsurv(&ch->lp, s, n - s) - lZ);
+        w = W;
+      }
+      if (W == 0)
         continue;
-      double b = jump ? ch->cb[k] : 0, v = jump ? ch->cv[k] : 0;
-      d0[s] += w;
-      d0[e + 1] -= w;
-      d1[s] += w * b;
-      d1[e + 1] -= w * b;
-      d2[s] += w * (b * b + v);
-      d2[e + 1] -= w * (b * b + v);
+      if (w != 0) {
+        double b = jump ? ch->cb[k] : 0, v = jump ? ch->cv[k] : 0;
+        d0[s] += w;
+        d0[e + 1] -= w;
+        d1[s] += w * b;
+        d1[e + 1] -= w * b;
+        d2[s] += w * (b * b + v);
+        d2[e + 1] -= w * (b * b + v);
+      }
+      if (jlo < 0)
+        continue;
+      if (e + 1 == n) {
+        for (int j = jlo; j <= jhi; j++)
+          ch->kprob[j] += rj[(size_t)j * np1 + s] * W;
+      } else {
+        int top = jhi < K ? jhi : K - 1;
+        for (int j = jlo; j <= top; j++)
+          rj[(size_t)(j + 1) * np1 + e + 1] += rj[(size_t)j * np1 + s] * W;
+      }
     }
   }
+  free(rj);
+  free(pr);
   double a0 = 0, a1 = 0, a2 = 0;
   for (size_t t = 0; t < n; t++) {
     a0 += d0[t];
@@ -580,38 +664,6 @@ static int forward_and_results(twofold_changes *ch) {
   free(d0);
   free(d1);
   free(d2);
-  /* number of changes: F_j (METHODS A2), entries negligible against Fa
-   * (below e^-46 of it) skipped */
-  double *Fj = malloc((size_t)(K + 1) * (n + 1) * sizeof(double));
-  if (!Fj)
-    return TWOFOLD_ENOMEM;
-  for (size_t i = 0; i < (size_t)(K + 1) * (n + 1); i++)
-    Fj[i] = -INFINITY;
-  Fj[0] = 0;
-  for (int m = 0; m <= K; m++)
-    ch->kprob[m] = 0;
-  for (size_t s = 0; s < n; s++) {
-    if (ch->Fa[s] == -INFINITY)
-      continue;
-    for (int j = 0; j <= K; j++) {
-      double f = Fj[(size_t)j * (n + 1) + s];
-      if (f < ch->Fa[s] - 46)
-        continue;
-      for (size_t e = s; e <= ch->stop[s]; e++) {
-        double lp = ch->clogP[cidx(ch, s, e)];
-        if (lp == -INFINITY)
-          continue;
-        if (e + 1 == n) {
-          ch->kprob[j] +=
-              exp(f + lp + tf_lsurv(&ch->lp, s, n - s) - lZ);
-        } else if (j < K) {
-          double *dst = &Fj[(size_t)(j + 1) * (n + 1) + e + 1];
-          *dst = tf_lse(*dst, f + lp + tf_lg(&ch->lp, s, e - s + 1));
-        }
-      }
-    }
-  }
-  free(Fj);
   double tot = 0;
   for (int m = 0; m <= K; m++)
     tot += ch->kprob[m];
