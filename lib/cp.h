@@ -44,7 +44,14 @@ typedef struct tf_cpdata {
   size_t *miss;        /* indices of missing days                        */
   size_t nmiss;
   double ybar;         /* (Y + 0.5) / W over the series                  */
+  /* constants of the segment marginals, set by tf_cp_constants() */
+  double lvl0;         /* alpha log beta - lgamma(alpha)                 */
+  double lbeta, lphi, lrsd; /* log beta, log phi, log rsd                */
 } tf_cpdata;
+
+/* Set the constants above from alpha, beta, phi and rsd; tf_cp_prepare
+ * calls it, and so must any code that changes those fields afterwards. */
+void tf_cp_constants(tf_cpdata *d);
 
 /* Fill d from y (validated by the caller).  phi_opt 0 estimates phi;
  * weekday 0 leaves the effects at zero.  beta 0 takes alpha / ybar.

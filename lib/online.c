@@ -184,6 +184,7 @@ static int add_day(twofold_online *on, double y) {
     d->ybar = y + 0.5;
     d->beta = d->alpha / d->ybar;
     on->have_beta = 1;
+    tf_cp_constants(d);
   }
   d->y[t] = y;
   if (m)
@@ -317,6 +318,7 @@ int twofold_online_new(const twofold_cp_options *o, const double *history,
   on->d.rsd = opt.rsd;
   for (int c = 0; c < 7; c++)
     on->d.wcls[c] = exp(on->d.delta[c]);
+  tf_cp_constants(&on->d);
   rc = grow_data(on, n_history > 0 ? n_history : 64);
   if (rc) {
     twofold_online_free(on);

@@ -108,31 +108,119 @@ static void geo(double B, size_t L, double *logG, double *M, double *V) {
   *V = v > 0 ? v : 0;
 }
 
-/* geo() in linear space from Eb = expm1(B) (B != 0, |B L| >= 0.05, no
- * overflow): G = expm1(B L)/expm1(B); with x = e^{-B} - 1 forms,
- * 1/(-expm1(-y)) = (1 + E)/E for E = expm1(y), and
- * 1/(4 sinh^2(y/2)) = (1 + E)/E^2, so one expm1 per length. */
-static void geo_lin(double B, double Eb, size_t L, double *G, double *M,
-                    double *V) {
+/* geo() in linear space from Eb = expm1(B) and EL = expm1(B L) (B != 0,
+ * |B L| >= 0.05, no overflow): G = EL/Eb; with 1/(-expm1(-y)) = (1 + E)/E
+ * for E = expm1(y), and 1/(4 sinh^2(y/2)) = (1 + E)/E^2. */
+static void geo_from(double Eb, double EL, size_t L, double *G, double *M,
+                     double *V) {
   double Ld = (double)L;
-  if (L == 1) {
-    *G = 1;
-    *M = 0;
-    *V = 0;
-    return;
-  }
-  double BL = B * Ld;
-  if (fabs(BL) < 0.05) {
-    double lG;
-    geo(B, L, &lG, M, V);
-    *G = exp(lG);
-    return;
-  }
-  double EL = expm1(BL);
   *G = EL / Eb;
   *M = Ld * (1 + EL) / EL - (1 + Eb) / Eb;
   double v = (1 + Eb) / (Eb * Eb) - Ld * Ld * (1 + EL) / (EL * EL);
   *V = v > 0 ? v : 0;
+}
+
+/* geo() in linear space for lengths q and q + 1 (q >= 0; G = M = V = 0
+ * for length 0): one expm1 for both, since
+ * expm1(B (q+1)) = expm1(B q) e^B + expm1(B), a sum of two terms of the
+ * same sign (no cancellation).  Eb = expm1(B). */
+static void geo_pair(double B, double Eb, size_t q, double *G, double *M,
+                     double *V) {
+  G[0] = M[0] = V[0] = 0;
+  if (B == 0) {
+    for (int k = 0; k < 2; k++) {
+      double Ld = (double)(q + (size_t)k);
+      G[k] = Ld;
+      M[k] = Ld > 0 ? (Ld - 1) / 2 : 0;
+      V[k] = Ld > 0 ? (Ld * Ld - 1) / 12 : 0;
+    }
+    return;
+  }
+  double Eq = 0;
+  int haveq = 0;
+  for (int k = 0; k < 2; k++) {
+    size_t L = q + (size_t)k;
+    if (L == 0)
+      continue;
+    if (L == 1) {
+      G[k] = 1;
+      M[k] = 0;
+      V[k] = 0;
+      Eq = Eb;
+      haveq = 1;
+      continue;
+    }
+    double BL = B * (double)L;
+    if (fabs(BL) < 0.05) {
+      double lG;
+      geo(B, L, &lG, &M[k], &V[k]);
+      G[k] = exp(lG);
+      haveq = 0;
+      continue;
+    }
+    double EL = haveq ? Eq * (1 + Eb) + Eb : expm1(BL);
+    Eq = EL;
+    haveq = 1;
+    geo_from(Eb, EL, L, &G[k], &M[k], &V[k]);
+  }
+}
+
+/* The class sums of METHODS B3 in linear space when nothing can overflow
+ * and the missing days (subtracted explicitly) are few: E0 itself and
+ * E1/E0, E2/E0.  The e^{b u} of the first 7 days are powers of e^b and
+ * both class lengths share one expm1, so an evaluation costs 3
+ * exponentials plus one per missing day.  Returns 0 when it does not
+ * apply (the caller then takes the log-space forms). */
+static int esums_lin(const tf_cpdata *d, size_t s, size_t e, double c,
+                     double b, double *E0o, double *m1, double *m2) {
+  size_t L = e - s + 1;
+  size_t nm = d->cmiss[e + 1] - d->cmiss[s];
+  if (nm * 4 >= L && nm > 0)
+    return 0;
+  if (!(fabs(b) * ((double)L + fabs((double)s - c)) < 600))
+    return 0;
+  size_t q = L / 7, r = L % 7;
+  double B = 7 * b;
+  double xb = expm1(b), zb = 1 + xb, Eb;
+  if (fabs(xb) < 0.1) /* (1 + x)^7 - 1 by Horner: little cancellation */
+    Eb = xb * (7 + xb * (21 + xb * (35 + xb * (35 + xb * (21 + xb * (7 + xb))))));
+  else
+    Eb = expm1(B);
+  double G[2], M[2], V[2];
+  geo_pair(B, Eb, q, G, M, V);
+  double zp = exp(b * ((double)s - c));
+  double E0 = 0, E1 = 0, E2 = 0;
+  int cl = tf_cls(d, s);
+  for (size_t j = 0; j < 7 && j < L; j++) {
+    int k = j < r ? 1 : 0;
+    double u0 = (double)(s + j) - c;
+    double w = d->wcls[cl] * zp * G[k];
+    double mj = u0 + 7 * M[k];
+    E0 += w;
+    E1 += w * mj;
+    E2 += w * (mj * mj + 49 * V[k]);
+    zp *= zb;
+    cl = cl == 6 ? 0 : cl + 1;
+  }
+  if (nm > 0) {
+    double E0all = E0;
+    size_t i0 = d->cmiss[s];
+    for (size_t i = i0; i < i0 + nm; i++) {
+      size_t t = d->miss[i];
+      double u = (double)t - c;
+      double w = d->wcls[tf_cls(d, t)] * exp(b * u);
+      E0 -= w;
+      E1 -= w * u;
+      E2 -= w * u * u;
+    }
+    /* cancellation: keep at least 3 of the 16 digits */
+    if (!(E0 > 1e-3 * E0all))
+      return 0;
+  }
+  *E0o = E0;
+  *m1 = E1 / E0;
+  *m2 = E2 / E0;
+  return 1;
 }
 
 void tf_esums(const tf_cpdata *d, size_t s, size_t e, double c, double b,
@@ -142,33 +230,16 @@ void tf_esums(const tf_cpdata *d, size_t s, size_t e, double c, double b,
   double lc[7], mu[7], sq[7];
   int nc = 0;
   double mx = -INFINITY;
-  if (nm == 0 && b != 0 && fabs(b) * ((double)L + fabs((double)s - c)) < 600) {
-    /* no missing day, nothing can overflow: the class sums of METHODS B3
-     * in linear space, e^{b u} of the 7 first days by powers of e^b */
-    size_t q = L / 7, r = L % 7;
-    double B = 7 * b, Eb = expm1(B);
-    double G[2] = {0, 0}, M[2] = {0, 0}, V[2] = {0, 0};
-    if (q > 0)
-      geo_lin(B, Eb, q, &G[0], &M[0], &V[0]);
-    geo_lin(B, Eb, q + 1, &G[1], &M[1], &V[1]);
-    double zb = exp(b), zp = exp(b * ((double)s - c));
-    double E0 = 0, E1 = 0, E2 = 0;
-    for (size_t j = 0; j < 7 && j < L; j++) {
-      int k = j < r ? 1 : 0;
-      double u0 = (double)(s + j) - c;
-      double w = d->wcls[tf_cls(d, s + j)] * zp * G[k];
-      double mj = u0 + 7 * M[k];
-      E0 += w;
-      E1 += w * mj;
-      E2 += w * (mj * mj + 49 * V[k]);
-      zp *= zb;
+  {
+    double E0, M1, M2;
+    if (esums_lin(d, s, e, c, b, &E0, &M1, &M2)) {
+      *logE0 = log(E0);
+      if (m1)
+        *m1 = M1;
+      if (m2)
+        *m2 = M2;
+      return;
     }
-    *logE0 = log(E0);
-    if (m1)
-      *m1 = E1 / E0;
-    if (m2)
-      *m2 = E2 / E0;
-    return;
   }
   if (nm == 0 || nm * 4 < L) {
     size_t q = L / 7, r = L % 7;
@@ -256,32 +327,43 @@ double tf_seg_level(const tf_cpdata *d, size_t s, size_t e, double *lvl) {
   double ap = d->alpha + Y / d->phi, bp = d->beta + W / d->phi;
   if (lvl)
     *lvl = ap / bp;
-  return d->alpha * log(d->beta) - tf_lgamma(d->alpha) + tf_lgamma(ap) -
-         ap * log(bp);
+  return d->lvl0 + tf_lgamma(ap) - ap * log(bp);
 }
 
 /* f(b) of B5 without the b-free constants, and its derivatives. */
 static double jump_f(const tf_cpdata *d, size_t s, size_t e, double c,
                      double Y, double S1, double b, double *f1, double *f2,
                      double *lbp) {
-  double lE0, m1, m2;
-  tf_esums(d, s, e, c, b, &lE0, &m1, &m2);
   double phi = d->phi, ap = d->alpha + Y / phi;
-  double lb = log(d->beta), lx = lE0 - log(phi);
-  double l = tf_lse(lb, lx);
-  double rho = exp(lb - lx); /* beta phi / E0; inf when E0 = 0 */
-  double r = 1 / (1 + rho);
   double z = (b - d->rmean) / d->rsd;
-  double f = b * S1 / phi - ap * l - 0.5 * z * z;
-  if (f1)
-    *f1 = S1 / phi - ap * m1 * r - z / d->rsd;
-  if (f2) {
+  double E0, m1, m2, l, r, t;
+  if (esums_lin(d, s, e, c, b, &E0, &m1, &m2)) {
+    /* linear space: x = E0/phi, r = x / (beta + x) = 1 / (1 + rho) and
+     * r^2 rho = r (1 - r) */
+    double x = E0 / phi, bx = d->beta + x;
+    l = log(bx);
+    r = x / bx;
     double V = m2 - m1 * m1;
     if (V < 0)
       V = 0;
-    double t = isfinite(rho) ? r * r * (V + rho * m2) : 0;
-    *f2 = -ap * t - 1 / (d->rsd * d->rsd);
+    t = r * r * V + r * (d->beta / bx) * m2;
+  } else {
+    double lE0;
+    tf_esums(d, s, e, c, b, &lE0, &m1, &m2);
+    double lb = d->lbeta, lx = lE0 - d->lphi;
+    l = tf_lse(lb, lx);
+    double rho = exp(lb - lx); /* beta phi / E0; inf when E0 = 0 */
+    r = 1 / (1 + rho);
+    double V = m2 - m1 * m1;
+    if (V < 0)
+      V = 0;
+    t = isfinite(rho) ? r * r * (V + rho * m2) : 0;
   }
+  double f = b * S1 / phi - ap * l - 0.5 * z * z;
+  if (f1)
+    *f1 = S1 / phi - ap * m1 * r - z / d->rsd;
+  if (f2)
+    *f2 = -ap * t - 1 / (d->rsd * d->rsd);
   if (lbp)
     *lbp = l;
   return f;
@@ -329,8 +411,7 @@ double tf_seg_jump(const tf_cpdata *d, size_t s, size_t e, double *bio,
   *bvar = -1 / f2;
   if (lvl)
     *lvl = ap / exp(lbp);
-  return f + d->alpha * log(d->beta) - tf_lgamma(d->alpha) + tf_lgamma(ap) -
-         log(d->rsd) - 0.5 * log(-f2);
+  return f + d->lvl0 + tf_lgamma(ap) - d->lrsd - 0.5 * log(-f2);
   /* the 1/sqrt(2 pi) of N(b) cancels the sqrt(2 pi) of the Laplace step */
 }
 
@@ -752,5 +833,13 @@ int tf_cp_prepare(tf_cpdata *d, const struct twofold_cp_options *o,
   }
   d->ybar = (d->cy[n] + 0.5) / (W > 0 ? W : 1.0);
   d->beta = o->beta > 0 ? o->beta : o->alpha / d->ybar;
+  tf_cp_constants(d);
   return 0;
+}
+
+void tf_cp_constants(tf_cpdata *d) {
+  d->lbeta = log(d->beta);
+  d->lvl0 = d->alpha * d->lbeta - tf_lgamma(d->alpha);
+  d->lphi = log(d->phi);
+  d->lrsd = log(d->rsd);
 }
