@@ -125,15 +125,19 @@ static void sor(twofold_online *on, size_t m) {
     }
     srt[j] = v;
   }
-  double tail = 0;
-  for (size_t i = 0; i < nc; i++)
-    tail += srt[i];
-  double alpha = tail / (double)m;
-  for (size_t kk = 0; kk < m; kk++) {
-    alpha = tail / (double)(m - kk);
+  /* tails of the sorted weights summed from the smallest up: a running
+   * difference from the total loses the small tails to rounding, and an
+   * alpha far below the rounding error keeps every small weight (so the
+   * candidates would never shrink) */
+  double *sfx = srt + nc;
+  sfx[nc] = 0;
+  for (size_t i = nc; i-- > 0;)
+    sfx[i] = sfx[i + 1] + srt[i];
+  double alpha = sfx[0] / (double)m;
+  for (size_t kk = 0; kk < m && kk < nc; kk++) {
+    alpha = sfx[kk] / (double)(m - kk);
     if (srt[kk] < alpha)
       break;
-    tail -= srt[kk];
     if (kk + 1 == m) /* m weights dominate: keep them, drop the rest */
       alpha = srt[kk];
   }
@@ -164,6 +168,51 @@ static void sor(twofold_online *on, size_t m) {
   }
   on->nc = out;
   /* renormalise (exact up to rounding) */
+  double lz = -INFINITY;
+  for (size_t i = 0; i < out; i++)
+    lz = tf_lse(lz, on->cw[i]);
+  for (size_t i = 0; i < out; i++)
+    on->cw[i] -= lz;
+}
+
+/* Last resort after repeated SOR (rounding only): keep the m largest
+ * weights (ties to the earlier start), renormalised. */
+static void keep_largest(twofold_online *on, size_t m) {
+  size_t nc = on->nc;
+  double *srt = on->sortbuf;
+  memcpy(srt, on->cw, nc * sizeof(double));
+  for (size_t i = 1; i < nc; i++) { /* descending */
+    double v = srt[i];
+    size_t j = i;
+    while (j > 0 && srt[j - 1] < v) {
+      srt[j] = srt[j - 1];
+      j--;
+    }
+    srt[j] = v;
+  }
+  double cut = srt[m - 1];
+  size_t above = 0;
+  for (size_t i = 0; i < nc; i++)
+    above += on->cw[i] > cut;
+  size_t ties = m - above, out = 0;
+  for (size_t i = 0; i < nc; i++) {
+    int keep = 0;
+    if (on->cw[i] > cut) {
+      keep = 1;
+    } else if (on->cw[i] == cut && ties > 0) {
+      keep = 1;
+      ties--;
+    }
+    if (keep) {
+      on->cs[out] = on->cs[i];
+      on->cw[out] = on->cw[i];
+      on->clp[out] = on->clp[i];
+      on->cb[out] = on->cb[i];
+      on->cv[out] = on->cv[i];
+      out++;
+    }
+  }
+  on->nc = out;
   double lz = -INFINITY;
   for (size_t i = 0; i < out; i++)
     lz = tf_lse(lz, on->cw[i]);
@@ -243,10 +292,12 @@ static int add_day(twofold_online *on, double y) {
     on->cw[i] -= lz;
   on->lpred = lz + cst;
   on->t = t + 1;
+  /* SOR keeps about m (at most m + 1 with exact arithmetic); never more
+   * than the cap */
+  for (int it = 0; on->nc > on->maxc && it < 16; it++)
+    sor(on, on->maxc / 2 > 1 ? on->maxc / 2 : 1);
   if (on->nc > on->maxc)
-    sor(on, on->maxc / 2 > 1 ? on->maxc / 2 : 1);
-  while (on->nc > on->maxc) /* SOR keeps about m; never more than the cap */
-    sor(on, on->maxc / 2 > 1 ? on->maxc / 2 : 1);
+    keep_largest(on, on->maxc);
   return 0;
 }
 
@@ -283,7 +334,7 @@ int twofold_online_new(const twofold_cp_options *o, const double *history,
   on->clp = malloc(mc * sizeof(double));
   on->cb = malloc(mc * sizeof(double));
   on->cv = malloc(mc * sizeof(double));
-  on->sortbuf = malloc(2 * mc * sizeof(double));
+  on->sortbuf = malloc((3 * mc + 1) * sizeof(double));
   if (!on->cs || !on->cw || !on->clp || !on->cb || !on->cv || !on->sortbuf) {
     twofold_online_free(on);
     return TWOFOLD_ENOMEM;
