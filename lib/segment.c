@@ -418,17 +418,25 @@ double tf_seg_jump(const tf_cpdata *d, size_t s, size_t e, double *bio,
 /* ---- segment-length prior (METHODS A1) -------------------------------- */
 
 /* log P(L > len) for L = min_seg - k + X, X ~ negative binomial (number of
- * trials for k successes of probability q). */
-static double lsurv_nb(size_t len, int m, int k, double q) {
+ * trials for k successes of probability q); lq = log q, l1q = log(1 - q).
+ * P(Bin(x, q) < k) with log C(x, i) by the recurrence
+ * C(x, i) = C(x, i-1) (x - i + 1) / i: k logs and k exps, no lgamma. */
+static double lsurv_nb(size_t len, int m, int k, double lq, double l1q) {
   if (len < (size_t)m)
     return 0;
   double x = (double)(len - (size_t)m + (size_t)k);
-  /* P(Bin(x, q) < k) */
-  double acc = -INFINITY;
+  double lt[50], mx = -INFINITY, lc = 0;
+  for (int i = 0; i < k; i++) {
+    if (i > 0)
+      lc += log((x - i + 1) / i);
+    lt[i] = lc + i * lq + (x - i) * l1q;
+    if (lt[i] > mx)
+      mx = lt[i];
+  }
+  double sum = 0;
   for (int i = 0; i < k; i++)
-    acc = tf_lse(acc, tf_lgamma(x + 1) - tf_lgamma(i + 1.0) - tf_lgamma(x - i + 1) +
-                          i * log(q) + (x - i) * log1p(-q));
-  return acc;
+    sum += exp(lt[i] - mx);
+  return mx + log(sum);
 }
 
 static double lpmf_nb(size_t len, int m, int k, double q) {
@@ -443,7 +451,7 @@ int tf_lenprior_init(tf_lenprior *lp, size_t n, int m, int k, double mean) {
   memset(lp, 0, sizeof *lp);
   lp->n = n;
   lp->mean = mean;
-  double q = k / (mean - m + k);
+  double q = k / (mean - m + k), lq = log(q), l1q = log1p(-q);
   size_t far = n + (size_t)m + (size_t)ceil(60.0 * (k + 1) / q) + 10;
   lp->lg = malloc((n + 1) * sizeof(double));
   lp->lS = malloc((n + 1) * sizeof(double));
@@ -457,13 +465,25 @@ int tf_lenprior_init(tf_lenprior *lp, size_t n, int m, int k, double mean) {
   for (size_t l = 0; l <= n; l++) {
     if (l > 0)
       lp->lg[l] = lpmf_nb(l, m, k, q);
-    lp->lS[l] = lsurv_nb(l, m, k, q);
+    lp->lS[l] = lsurv_nb(l, m, k, lq, l1q);
   }
   /* Stationary first segment: g0(l) = S(l-1)/mean, S0(l) = T(l)/mean with
    * T(l) = sum_{j >= l} S(j), summed from far out (geometric tail). */
-  double T = lsurv_nb(far, m, k, q) - log(q);
-  for (size_t j = far; j-- > n + 1;)
-    T = tf_lse(T, lsurv_nb(j, m, k, q));
+  /* the terms grow as j falls (S is non-increasing): the sum is kept as
+   * e^tm * ts with tm the latest term, one exp per term */
+  double tm = lsurv_nb(far, m, k, lq, l1q) - log(q), ts = 1;
+  for (size_t j = far; j-- > n + 1;) {
+    double x = lsurv_nb(j, m, k, lq, l1q);
+    if (x == -INFINITY)
+      continue;
+    if (tm == -INFINITY || x >= tm) {
+      ts = tm == -INFINITY ? 1 : ts * exp(tm - x) + 1;
+      tm = x;
+    } else {
+      ts += exp(x - tm);
+    }
+  }
+  double T = tm + log(ts);
   double lmean = log(mean);
   for (size_t l = n + 1; l-- > 0;) {
     T = tf_lse(T, lp->lS[l]);
