@@ -175,6 +175,19 @@ static void sor(twofold_online *on, size_t m) {
     on->cw[i] -= lz;
 }
 
+/* A sum of exponentials kept as e^m * s, m the largest exponent so far:
+ * one exp per term. */
+static void lsum_add(double *m, double *s, double x) {
+  if (x == -INFINITY)
+    return;
+  if (x <= *m) {
+    *s += exp(x - *m);
+  } else {
+    *s = *m == -INFINITY ? 1 : *s * exp(*m - x) + 1;
+    *m = x;
+  }
+}
+
 /* Last resort after repeated SOR (rounding only): keep the m largest
  * weights (ties to the earlier start), renormalised. */
 static void keep_largest(twofold_online *on, size_t m) {
@@ -261,13 +274,14 @@ static int add_day(twofold_online *on, double y) {
     return 0;
   }
   /* new-segment mass before the day's likelihood */
-  double lnew = -INFINITY;
+  double nm = -INFINITY, ns = 0;
   for (size_t i = 0; i < on->nc; i++) {
     size_t s = on->cs[i], l = t - s;
     double h = tf_lg(lp, s, l) - (s == 0 ? lp->lS0[l - 1] : lp->lS[l - 1]);
-    lnew = tf_lse(lnew, on->cw[i] + h);
+    lsum_add(&nm, &ns, on->cw[i] + h);
   }
-  double lz = -INFINITY;
+  double lnew = nm == -INFINITY ? -INFINITY : nm + log(ns);
+  double zm = -INFINITY, zs = 0;
   for (size_t i = 0; i < on->nc; i++) {
     size_t s = on->cs[i], l = t - s;
     const double *S = s == 0 ? lp->lS0 : lp->lS;
@@ -277,7 +291,7 @@ static int add_day(twofold_online *on, double y) {
     on->clp[i] = lpn;
     on->cb[i] = b;
     on->cv[i] = v;
-    lz = tf_lse(lz, on->cw[i]);
+    lsum_add(&zm, &zs, on->cw[i]);
   }
   double b = d->rmean, v = 0;
   double l1 = seg_lp(on, t, t, &b, &v);
@@ -287,7 +301,8 @@ static int add_day(twofold_online *on, double y) {
   on->clp[k] = l1;
   on->cb[k] = b;
   on->cv[k] = v;
-  lz = tf_lse(lz, on->cw[k]);
+  lsum_add(&zm, &zs, on->cw[k]);
+  double lz = zm == -INFINITY ? -INFINITY : zm + log(zs);
   for (size_t i = 0; i < on->nc; i++)
     on->cw[i] -= lz;
   on->lpred = lz + cst;
