@@ -315,9 +315,17 @@ int twofold_cp_options_get_clean(const twofold_cp_options *o) {
  * flagged, is a reporting artefact (backlog dump); so is a zero where the
  * median is at least 10 (an unreported day: P(0) < e^-10 under Poisson).
  * Both become missing days. */
-static int cmp_double(const void *a, const void *b) {
-  double x = *(const double *)a, y = *(const double *)b;
-  return (x > y) - (x < y);
+/* ascending insertion sort of at most 14 values (no NaN) */
+static void sort_small(double *v, int m) {
+  for (int i = 1; i < m; i++) {
+    double x = v[i];
+    int j = i;
+    while (j > 0 && v[j - 1] > x) {
+      v[j] = v[j - 1];
+      j--;
+    }
+    v[j] = x;
+  }
 }
 
 size_t tf_cp_clean(double *y, size_t n) {
@@ -336,11 +344,11 @@ size_t tf_cp_clean(double *y, size_t n) {
         win[m++] = y[u];
     if (m < 6)
       continue;
-    qsort(win, (size_t)m, sizeof(double), cmp_double);
+    sort_small(win, m);
     double med = m % 2 ? win[m / 2] : 0.5 * (win[m / 2 - 1] + win[m / 2]);
     for (int i = 0; i < m; i++)
       dev[i] = fabs(win[i] - med);
-    qsort(dev, (size_t)m, sizeof(double), cmp_double);
+    sort_small(dev, m);
     double mad = m % 2 ? dev[m / 2] : 0.5 * (dev[m / 2 - 1] + dev[m / 2]);
     double sd = fmax(1.4826 * mad, sqrt(med + 1));
     if (fabs(y[t] - med) > 3.5 * sd || (y[t] == 0 && med >= 10))
@@ -477,11 +485,12 @@ static int backward(twofold_changes *ch) {
   size_t n = ch->n;
   const tf_cpdata *d = &ch->d;
   double leps = ch->opt.prune > 0 ? log(ch->opt.prune) : -INFINITY;
+  double lnmax = log((double)n + 1);
   ch->Q[n] = 0;
   /* The cache is filled from t = n-1 down, contiguous per start. */
   for (size_t t = n; t-- > 0;) {
     double am = -INFINITY, as = 0; /* running sum e^am * as */
-    size_t run = 0, e = t, nterm = 0;
+    size_t run = 0, e = t;
     double b = d->rmean, bprev = NAN;
     ch->off[t] = ch->ncache;
     for (; e < n; e++) {
@@ -504,16 +513,13 @@ static int backward(twofold_changes *ch) {
       if (rc)
         return rc;
       double term = lp + lg + ch->Q[e + 1];
-      if (term > -INFINITY) {
-        lsum_add(&am, &as, term);
-        nterm++;
-      }
+      lsum_add(&am, &as, term);
       if (e + 1 < n && L >= (size_t)ch->opt.min_seg && am > -INFINITY) {
-        /* bound < eps * sum, with log sum in [am, am + log nterm]: the
-         * log is needed only between the two */
+        /* bound < eps * sum, with log sum in [am, am + log nterm] and
+         * nterm <= n: the log is needed only between am and am + lnmax */
         double bound = lp + tf_lsurv(&ch->lp, t, L) + ch->Q[e + 1] - leps;
         int below = bound < am ||
-                    (bound < am + log((double)nterm) && bound < am + log(as));
+                    (bound < am + lnmax && bound < am + log(as));
         if (below) {
           if (++run >= PRUNE_RUN)
             break;
@@ -604,10 +610,11 @@ static int forward_and_results(twofold_changes *ch) {
   for (size_t s = 0; s < n; s++) {
     if (ch->Fa[s] == -INFINITY)
       continue;
-    /* r_j(s) is non-zero only for j in [jlo, jhi] */
+    /* r_j(s) above 1e-20 (Pr(j changes before s | change at s)) only for
+     * j in [jlo, jhi]; the others are left out, as negligible */
     int jlo = -1, jhi = -1;
     for (int j = 0; j <= K; j++)
-      if (rj[(size_t)j * np1 + s] != 0) {
+      if (rj[(size_t)j * np1 + s] > 1e-20) {
         if (jlo < 0)
           jlo = j;
         jhi = j;

@@ -113,10 +113,11 @@ static void geo(double B, size_t L, double *logG, double *M, double *V) {
  * for E = expm1(y), and 1/(4 sinh^2(y/2)) = (1 + E)/E^2. */
 static void geo_from(double Eb, double EL, size_t L, double *G, double *M,
                      double *V) {
-  double Ld = (double)L;
-  *G = EL / Eb;
-  *M = Ld * (1 + EL) / EL - (1 + Eb) / Eb;
-  double v = (1 + Eb) / (Eb * Eb) - Ld * Ld * (1 + EL) / (EL * EL);
+  double Ld = (double)L, iEb = 1 / Eb, iEL = 1 / EL;
+  double ab = (1 + Eb) * iEb, al = Ld * (1 + EL) * iEL;
+  *G = EL * iEb;
+  *M = al - ab;
+  double v = ab * iEb - al * Ld * iEL;
   *V = v > 0 ? v : 0;
 }
 
@@ -217,9 +218,10 @@ static int esums_lin(const tf_cpdata *d, size_t s, size_t e, double c,
     if (!(E0 > 1e-3 * E0all))
       return 0;
   }
+  double i0 = 1 / E0;
   *E0o = E0;
-  *m1 = E1 / E0;
-  *m2 = E2 / E0;
+  *m1 = E1 * i0;
+  *m2 = E2 * i0;
   return 1;
 }
 
@@ -340,13 +342,13 @@ static double jump_f(const tf_cpdata *d, size_t s, size_t e, double c,
   if (esums_lin(d, s, e, c, b, &E0, &m1, &m2)) {
     /* linear space: x = E0/phi, r = x / (beta + x) = 1 / (1 + rho) and
      * r^2 rho = r (1 - r) */
-    double x = E0 / phi, bx = d->beta + x;
+    double x = E0 / phi, bx = d->beta + x, ibx = 1 / bx;
     l = log(bx);
-    r = x / bx;
+    r = x * ibx;
     double V = m2 - m1 * m1;
     if (V < 0)
       V = 0;
-    t = r * r * V + r * (d->beta / bx) * m2;
+    t = r * (r * V + d->beta * ibx * m2);
   } else {
     double lE0;
     tf_esums(d, s, e, c, b, &lE0, &m1, &m2);
