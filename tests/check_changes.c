@@ -607,6 +607,47 @@ START_TEST(online_resampling) {
 }
 END_TEST
 
+/* A series whose weights concentrate on one candidate after a sharp
+ * break (invented numbers: growth 1 %/day from 500 a day, then a fall of
+ * 3 %/day, with a fixed-seed LCG for the noise).  Stratified optimal
+ * resampling keeps m of the candidates (Fearnhead & Liu 2007, JRSS B
+ * 69:589-605, sec. 3; METHODS A4): the filter must finish, stay within
+ * the cap after every day (Check's time limit fails a filter that loops)
+ * and give finite predictives. */
+START_TEST(online_resampling_dominant) {
+  enum { DN = 500 };
+  double y[DN];
+  unsigned long long x = 12345;
+  for (int t = 0; t < DN; t++) {
+    x = x * 6364136223846793005ULL + 1442695040888963407ULL;
+    double u = (double)(x >> 11) / 9007199254740992.0;
+    double mu = t < 300 ? 500 * exp(0.01 * t)
+                        : 500 * exp(3.0 - 0.03 * (t - 300));
+    y[t] = floor(mu + sqrt(mu) * (u - 0.5) * 3.4);
+  }
+  for (int kind = TWOFOLD_CP_JUMP; kind <= TWOFOLD_CP_LEVEL; kind++) {
+    twofold_cp_options *o;
+    twofold_cp_options_new(&o);
+    twofold_cp_options_set_kind(o, kind);
+    size_t caps[] = {4, 20, 100};
+    for (int c = 0; c < 3; c++) {
+      twofold_online *on;
+      ck_assert_int_eq(twofold_online_new(o, y, 100, 1, caps[c], 7, &on), 0);
+      for (size_t t = 100; t < DN; t++) {
+        ck_assert_int_eq(twofold_online_add(on, y[t]), 0);
+        ck_assert_uint_le(twofold_online_candidates(on), caps[c]);
+        ck_assert(isfinite(twofold_online_log_predictive(on)));
+      }
+      double p;
+      ck_assert_int_eq(twofold_online_p_recent(on, 7, &p), 0);
+      ck_assert(p >= 0 && p <= 1);
+      twofold_online_free(on);
+    }
+    twofold_cp_options_free(o);
+  }
+}
+END_TEST
+
 START_TEST(online_errors) {
   twofold_online *on;
   ck_assert_int_eq(twofold_online_new(NULL, NULL, 0, 1, 10, 1, NULL),
@@ -858,6 +899,7 @@ static Suite *changes_suite(void) {
   tcase_add_test(tc, kink_against_quadrature);
   tcase_add_test(tc, online_exact_without_resampling);
   tcase_add_test(tc, online_resampling);
+  tcase_add_test(tc, online_resampling_dominant);
   tcase_add_test(tc, online_errors);
   tcase_add_test(tc, coal_mining);
   tcase_set_timeout(tc, 120);
