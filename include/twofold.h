@@ -581,10 +581,14 @@ TWOFOLD_API int twofold_gi_reproduction_interval(const twofold_gi *gi,
  * Inference: JUMP and LEVEL by the exact recursions of Fearnhead (2006,
  * Statistics and Computing 16:203-213) on segment marginal likelihoods
  * (LEVEL: exact conjugate; JUMP: exact in the level, Laplace in the growth
- * rate), with Fearnhead's pruning; KINK by the same forward/backward
- * recursions on a grid of log-levels at each changepoint (exact tempered
- * Poisson likelihood between grid knots, trapezoid quadrature over the
- * knots).  Online: the particle filter of Fearnhead & Liu (2007, JRSS B
+ * rate), with Fearnhead's pruning; KINK, whose segments share the level
+ * at each change, after Fearnhead & Liu (2011, Statistics and Computing
+ * 21:217-229) by default with the filtered log-level at each change
+ * carried forward as one normal (a collapsed mixture, Harrison & Stevens
+ * 1976, JRSS B 38:205-247) and two-dimensional Laplace segment
+ * likelihoods, then the same recursions; or, on request, on a grid of
+ * log-levels at each change (exact tempered Poisson likelihood between
+ * grid knots, trapezoid quadrature over the knots).  Online: the particle filter of Fearnhead & Liu (2007, JRSS B
  * 69:589-605) with stratified optimal resampling.
  *
  * Day convention: a change "on day i" (0-based index in the series) means
@@ -606,7 +610,7 @@ TWOFOLD_API int twofold_cp_kind_from_string(const char *name);
 
 /* Changepoint options.  Defaults are those stated above, plus: credible
  * level 0.95, pruning threshold 1e-10, up to 20 changes reported in the
- * count distribution, 16 grid points per knot (KINK). */
+ * count distribution, KINK by Laplace messages (grid 0). */
 typedef struct twofold_cp_options twofold_cp_options;
 
 /* Caller frees. */
@@ -682,7 +686,9 @@ TWOFOLD_API int twofold_cp_options_get_max_changes(
 TWOFOLD_API int twofold_cp_options_set_level(twofold_cp_options *o,
                                              double level);
 TWOFOLD_API double twofold_cp_options_get_level(const twofold_cp_options *o);
-/* KINK: grid points per knot, 4..200. */
+/* KINK method: 0 (the default) for collapsed Laplace messages, or 4..200
+ * grid points per knot for the grid method (slower: its cost grows as
+ * the square of the points; used to check the default). */
 TWOFOLD_API int twofold_cp_options_set_grid(twofold_cp_options *o,
                                             int points);
 TWOFOLD_API int twofold_cp_options_get_grid(const twofold_cp_options *o);
@@ -785,7 +791,7 @@ TWOFOLD_API int twofold_changes_map_segment(const twofold_changes *ch,
                                             double *level);
 
 /* Draw `draws` segmentations from the posterior (exact sampling from the
- * recursions; KINK: on the level grid), seeded by seed (same seed, same
+ * recursions; KINK with a grid: on the level grid), seeded by seed (same seed, same
  * draws).  change (draws x n, row-major, may be NULL) gets 1 where day i
  * starts a new regime in draw d, else 0; rate (draws x n, may be NULL)
  * the growth rate of day i in draw d; count (draws, may be NULL) the

@@ -123,7 +123,6 @@ size_t tf_cp_clean(double *y, size_t n);
 /* Validation shared by the offline run and the online filter. */
 int tf_cp_check_counts(const double *y, size_t n, char *msg);
 
-#endif
 
 /* The posterior object.  Fields filled by the JUMP/LEVEL recursions
  * (changes.c) or by the KINK grid recursions (kink.c). */
@@ -154,7 +153,16 @@ struct twofold_changes {
 };
 
 int tf_kink_run(struct twofold_changes *ch);
+/* KINK by collapsed Laplace messages (grid 0): fills Q, Fa, stop, off and
+ * the segment cache as the JUMP recursions do, then the results. */
+int tf_kinkl_run(struct twofold_changes *ch);
+/* Results from Q, Fa, stop, off and the segment cache: change
+ * probabilities, growth, the count distribution and the MAP
+ * segmentation. */
+int tf_cp_results(struct twofold_changes *ch);
 void tf_kink_free(struct tf_kink *k);
 int tf_kink_sample(const struct twofold_changes *ch, uint64_t seed,
                    size_t draws, unsigned char *change, double *rate,
                    size_t *count);
+
+#endif
