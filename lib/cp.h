@@ -81,6 +81,21 @@ double tf_seg_level(const tf_cpdata *d, size_t s, size_t e, double *lvl);
 double tf_seg_jump(const tf_cpdata *d, size_t s, size_t e, double *b,
                    double *bvar, double *lvl);
 
+/* KINK segment (kink_laplace.c): the Laplace fit of [s, e] given the
+ * level at its knot x_s ~ N(m, v) (METHODS B4; the knot sits at day s-1
+ * and eta_t = x_s + b (t - s + 1)). */
+typedef struct tf_kfit {
+  double a, b;   /* posterior mode of (x_s, b); in: starting values (NAN:
+                    from the prior) */
+  double pa, pb; /* the previous mode, for extrapolation (NAN: none)   */
+  double bvar;   /* posterior variance of b                            */
+  double xm, xv; /* mean and variance of the end level a + b (e-s+1)   */
+} tf_kfit;
+/* log P(s, e) without the per-day constants (tf_cpdata.cconst); updates
+ * *fit (warm start in, mode out). */
+double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
+                   double v, tf_kfit *fit);
+
 /* Segment-length prior tables (log), lengths 0..n. */
 typedef struct tf_lenprior {
   size_t n;

@@ -57,13 +57,7 @@
 #define KL_PRUNE_RUN 14
 #define KL_CACHE_LIMIT ((size_t)200000000)
 
-/* One Laplace fit of segment [s, e] given x_s ~ N(m, v). */
-typedef struct kl_fit {
-  double a, b;   /* posterior mode of (x_s, b); in: starting values */
-  double pa, pb; /* the previous mode (NAN: none)                   */
-  double bvar;   /* posterior variance of b                          */
-  double xm, xv; /* mean and variance of x_{e+1} = a + b L           */
-} kl_fit;
+typedef tf_kfit kl_fit;
 
 /* f(a, b) = [a Y + b S1 - e^a E0(b)] / phi + log priors (without their
  * normalising constants); the gradient and the negative Hessian. */
@@ -98,9 +92,7 @@ static void kl_evaluate(const tf_cpdata *d, size_t s, size_t e, double c,
   r->det = P * P * V + P / rsd2 + P * m2 / v + 1 / (v * rsd2);
 }
 
-/* Returns log P(s, e) without the per-day constants (those of
- * tf_cp_prepare's cconst). */
-static double kl_segment(const tf_cpdata *d, size_t s, size_t e, double m,
+double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
                          double v, kl_fit *fit) {
   double c = (double)s - 1;
   double Y = tf_sumy(d, s, e), S1 = tf_sumty(d, s, e) - c * Y;
@@ -261,7 +253,7 @@ static int kl_forward(twofold_changes *ch, kl_work *w, kl_entries *E) {
     for (size_t i = 0; i < na; i++) {
       size_t s = w->act[i], L = e - s + 1;
       kl_fit *f = &w->fit[s];
-      double lps = kl_segment(d, s, e, w->mm[s], w->mv[s], f);
+      double lps = tf_seg_kink(d, s, e, w->mm[s], w->mv[s], f);
       int rc = kl_push(E, s, lps, f->b, f->bvar, ch->msg);
       if (rc)
         return rc;
@@ -407,7 +399,7 @@ int tf_kinkl_run(twofold_changes *ch) {
     size_t s = ch->mapstart[j], e = ch->mapstart[j + 1] - 1;
     size_t mid = (s + e) / 2;
     kl_fit f = {NAN, NAN, NAN, NAN, 0, 0, 0};
-    (void)kl_segment(&ch->d, s, e, w.mm[s], w.mv[s], &f);
+    (void)tf_seg_kink(&ch->d, s, e, w.mm[s], w.mv[s], &f);
     ch->maplvl[j] = exp(f.a + f.b * ((double)mid - (double)s + 1));
   }
   rc = 0;
