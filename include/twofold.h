@@ -816,15 +816,19 @@ TWOFOLD_API int twofold_changes_length_prior(const twofold_changes *ch,
                                              double *log_pmf,
                                              double *log_surv);
 
-/* Online filter (Fearnhead & Liu 2007) for JUMP and LEVEL segments.
+/* Online filter (Fearnhead & Liu 2007) for KINK, JUMP and LEVEL segments
+ * (KINK by the collapsed Laplace messages of the offline default, whatever
+ * the grid option says).
  * history[0..n_history-1] (may be NULL with n_history 0) estimates the
  * weekday effects, the dispersion (when the options ask for it; without
  * history phi = 1) and the level prior scale as the offline run would, and
  * is fed to the filter; first_weekday is the ISO weekday of the first day
  * (of the history, or of the first added day).  At most max_candidates
  * (>= 2) candidate last changes are kept, reduced by stratified optimal
- * resampling seeded by seed.  o may be NULL (defaults, but JUMP
- * segments); KINK options give TWOFOLD_EINVAL.  Artefact cleaning is not
+ * resampling seeded by seed.  o may be NULL (the defaults: KINK
+ * segments).  Without resampling the filter's evidence and recent-change
+ * probabilities are those of the offline run with pruning off.  Artefact
+ * cleaning is not
  * applied online (it needs days on both sides).  Caller frees. */
 typedef struct twofold_online twofold_online;
 
