@@ -63,6 +63,7 @@ typedef struct tf_gres {
   double b[7];
   double theta;     /* INFINITY for Poisson models */
   double theta_cr;  /* Cox-Reid adjusted theta used by the small interval */
+  double cr_slope;  /* slope of its equation in log theta (a warm start) */
   double ll, dev, pearson, disp;
   double events;
   size_t used, missing;
