@@ -1182,6 +1182,8 @@ static const char *const wdname[7] = {"Monday", "Tuesday", "Wednesday",
 static int fail(tf_gres *res, int code, const char *fmt, const char *arg,
                 double v) {
   res->status = code;
+  if (res->quiet)
+    return code;
   char tmp[TF_ERRMSG_SIZE];
   if (arg)
     tf_msg_set(tmp, code, fmt, arg, v);
@@ -1284,11 +1286,13 @@ static int checks(win_t *w, const struct twofold_fit_options *o,
                     wdname[j], (double)w->used);
   size_t p = (size_t)nc + 1;
   if (w->used < p + 1 + (size_t)need_extra) {
-    char tmp[TF_ERRMSG_SIZE];
-    tf_msg_set(tmp, TWOFOLD_ENODATA,
-               "%zu days with data, need at least %zu for %zu parameters",
-               w->used, p + 1 + (size_t)need_extra, p + (size_t)need_extra);
-    memcpy(res->msg, tmp, sizeof tmp);
+    if (!res->quiet) {
+      char tmp[TF_ERRMSG_SIZE];
+      tf_msg_set(tmp, TWOFOLD_ENODATA,
+                 "%zu days with data, need at least %zu for %zu parameters",
+                 w->used, p + 1 + (size_t)need_extra, p + (size_t)need_extra);
+      memcpy(res->msg, tmp, sizeof tmp);
+    }
     res->status = TWOFOLD_ENODATA;
     return TWOFOLD_ENODATA;
   }
@@ -1459,6 +1463,11 @@ typedef struct {
   int La, nb;    /* shorter length; nb = 1 if there is a group of La+1 */
   double YA, YB; /* events in each group */
   double Tp;     /* T - U */
+  /* windows with missing days (gen = 1): one group per class, of
+   * length Lg[i] with the days of mask bit k present; weights Yg */
+  int gen, ng, Lg[7];
+  unsigned long mk[7];
+  double Yg[7];
 } gprof;
 
 #define GP_MAXL 48 /* longer classes use the closed forms of tf_geom */
@@ -1528,15 +1537,81 @@ static void gp_moments(const gprof *g, double r, int need_log, gmom *A,
   }
 }
 
-/* l_p' = d1, -l_p'' = h and l_p''' = d3 at r; the moments in A and B. */
+/* The same moments for each class of a window with missing days (the
+ * present days of class i are the bits of mk[i]); one exponential. */
+static void gp_moments_gen(const gprof *g, double r, int need_log, gmom *M) {
+  double x = g->s * r;
+  double q = exp(-fabs(x));
+  for (int i = 0; i < g->ng; i++) {
+    int L = g->Lg[i];
+    double c = 0.5 * (double)(L - 1);
+    double p = 1.0, S0 = 0.0, S1 = 0.0, S2 = 0.0, S3 = 0.0;
+    for (int k = 0; k < L; k++) {
+      int kk = x > 0.0 ? L - 1 - k : k; /* the day, from the heavy end */
+      if ((g->mk[i] >> kk) & 1ul) {
+        double u = (double)k - c, pu = p * u, pu2 = pu * u;
+        S0 += p;
+        S1 += pu;
+        S2 += pu2;
+        S3 += pu2 * u;
+      }
+      p *= q;
+    }
+    double i0 = 1.0 / S0;
+    double mc = S1 * i0;
+    double v = S2 * i0 - mc * mc;
+    double k3 = S3 * i0 - 3.0 * mc * S2 * i0 + 2.0 * mc * mc * mc;
+    double mk = c + mc;
+    gmom *o = &M[i];
+    o->V = v > 0.0 ? v : 0.0;
+    if (x > 0.0) {
+      o->m = (double)(L - 1) - mk;
+      o->K3 = -k3;
+      o->lE = need_log ? x * (double)(L - 1) + log(S0) : NAN;
+    } else {
+      o->m = mk;
+      o->K3 = k3;
+      o->lE = need_log ? log(S0) : NAN;
+    }
+  }
+}
+
+/* l_p' = d1, -l_p'' = h and l_p''' = d3 at r; the moments of each group
+ * in M (two groups, A and B, for a complete window). */
 static void gp_eval(const gprof *g, double r, int need_log, double *d1,
-                    double *h, double *d3, gmom *A, gmom *B) {
+                    double *h, double *d3, gmom *M) {
+  double s = g->s;
+  if (g->gen) {
+    gp_moments_gen(g, r, need_log, M);
+    double a = 0.0, b = 0.0, c = 0.0;
+    for (int i = 0; i < g->ng; i++) {
+      a += g->Yg[i] * M[i].m;
+      b += g->Yg[i] * M[i].V;
+      c += g->Yg[i] * M[i].K3;
+    }
+    *d1 = g->Tp - s * a;
+    *h = s * s * b;
+    *d3 = -s * s * s * c;
+    return;
+  }
+  gmom *A = &M[0], *B = &M[1];
   B->m = B->V = B->K3 = B->lE = 0.0;
   gp_moments(g, r, need_log, A, B);
-  double s = g->s;
   *d1 = g->Tp - s * (g->YA * A->m + g->YB * B->m);
   *h = s * s * (g->YA * A->V + g->YB * B->V);
   *d3 = -s * s * s * (g->YA * A->K3 + g->YB * B->K3);
+}
+
+/* sum over groups of Y_i (lE_i at M minus lE_i at Mh) */
+static double gp_dlog(const gprof *g, const gmom *M, const gmom *Mh) {
+  if (g->gen) {
+    double d = 0.0;
+    for (int i = 0; i < g->ng; i++)
+      d += g->Yg[i] * (M[i].lE - Mh[i].lE);
+    return d;
+  }
+  return g->YA * (M[0].lE - Mh[0].lE) +
+         (g->nb ? g->YB * (M[1].lE - Mh[1].lE) : 0.0);
 }
 
 /* The end on side sd (+1/-1) of {r : l_p(rhat) - l_p(r) <= cc}: Halley's
@@ -1544,16 +1619,15 @@ static void gp_eval(const gprof *g, double r, int need_log, double *d1,
  * Newton (l_p is concave, so Newton from beyond the end moves
  * monotonically onto it).  Differences of G are taken group by group, so
  * no large log-likelihood values are subtracted.  NaN on failure. */
-static double gp_root(const gprof *g, double rhat, const gmom *Ah,
-                      const gmom *Bh, double cc, double sd, double x0,
-                      double scale, int maxit) {
+static double gp_root(const gprof *g, double rhat, const gmom *Mh,
+                      double cc, double sd, double x0, double scale,
+                      int maxit) {
   double x = x0;
   for (int it = 0; it < maxit; it++) {
-    gmom A, B;
+    gmom M[7];
     double d1, h, d3;
-    gp_eval(g, x, 1, &d1, &h, &d3, &A, &B);
-    double f = (x - rhat) * g->Tp - g->YA * (A.lE - Ah->lE) -
-               (g->nb ? g->YB * (B.lE - Bh->lE) : 0.0) + cc;
+    gp_eval(g, x, 1, &d1, &h, &d3, M);
+    double f = (x - rhat) * g->Tp - gp_dlog(g, M, Mh) + cc;
     if (!(sd * d1 < 0.0) || !isfinite(f))
       return NAN;
     double dn = -f / d1;                /* Newton   */
@@ -1597,16 +1671,33 @@ static int geom_fast(win_t *w, const struct twofold_fit_options *o,
     g.YA = w->Ytot;
   }
   g.Tp = w->T - U;
+  if (w->used < w->n) {
+    /* missing days: one group per class, present days as a mask */
+    g.gen = 1;
+    g.ng = nc;
+    size_t step = nc == 7 ? 7 : 1;
+    for (int j = 0; j < nc; j++) {
+      int L = (int)w->L[j];
+      if (L > GP_MAXL)
+        return 1;
+      g.Lg[j] = L;
+      g.Yg[j] = w->Y[j];
+      g.mk[j] = 0;
+      for (int k = 0; k < L; k++)
+        if (!tf_isnan(w->y[(size_t)w->u0[j] + step * (size_t)k]))
+          g.mk[j] |= 1ul << k;
+    }
+  }
   /* Halley (the third derivative is at hand), safeguarded as pois_solve;
    * it stops once the Newton decrement is below 1e-8 tol, taking that
    * last Newton step: its error, and that of the curvature taken before
    * it, are then far below the single fit's */
   double r = isfinite(r0) ? r0 : 0.0;
   double lo = -INFINITY, hi = INFINITY, d1, h, d3;
-  gmom Ah, Bh;
+  gmom Mh[7];
   int it, done = 0;
   for (it = 1; it <= o->max_iter; it++) {
-    gp_eval(&g, r, 0, &d1, &h, &d3, &Ah, &Bh);
+    gp_eval(&g, r, 0, &d1, &h, &d3, Mh);
     if (!(h > 0.0) || !isfinite(d1))
       return 1;
     double step = d1 / h;
@@ -1641,14 +1732,18 @@ static int geom_fast(win_t *w, const struct twofold_fit_options *o,
   res->se = se;
   res->iter = it;
   res->theta = INFINITY;
-  int need_b = model == TWOFOLD_MODEL_QUASIPOISSON ||
-               (want & (TF_WANT_LOGLIK | TF_WANT_PROFILE | TF_WANT_SMALL));
-  if (need_b) {
+  int need_b = model == TWOFOLD_MODEL_QUASIPOISSON || (want & TF_WANT_LOGLIK);
+  int need_prof = (want & TF_WANT_PROFILE) ||
+                  ((want & TF_WANT_SMALL) && model == TWOFOLD_MODEL_POISSON);
+  if (need_b || need_prof) {
     /* the log sums at the estimate (also the base of the profile) */
-    gp_moments(&g, r, 1, &Ah, &Bh);
-    for (int j = 0; j < nc; j++) {
-      int isb = nc == 7 && g.nb && w->u0[j] < (double)(w->n % 7);
-      double lE = r * w->u0[j] + (isb ? Bh.lE : Ah.lE);
+    gp_eval(&g, r, 1, &d1, &h, &d3, Mh);
+    /* the weekday levels, only where something uses them (the Pearson
+     * and deviance pass); rolling Poisson windows start from r alone */
+    for (int j = 0; need_b && j < nc; j++) {
+      int gi = g.gen ? j
+                     : (nc == 7 && g.nb && w->u0[j] < (double)(w->n % 7));
+      double lE = r * w->u0[j] + Mh[gi].lE;
       res->b[j] = log(w->Y[j]) - lE;
     }
   }
@@ -1668,8 +1763,7 @@ static int geom_fast(win_t *w, const struct twofold_fit_options *o,
     res->wald[0] = r - st;
     res->wald[1] = r + st;
   }
-  if ((want & TF_WANT_PROFILE) ||
-      ((want & TF_WANT_SMALL) && model == TWOFOLD_MODEL_POISSON)) {
+  if (need_prof) {
     double sc = st + 1e-300;
     double x0lo = r - st, x0hi = r + st;
     if (hint && hint[0] < 0.0 && hint[1] > 0.0) {
@@ -1677,8 +1771,8 @@ static int geom_fast(win_t *w, const struct twofold_fit_options *o,
       x0hi = r + hint[1];
     }
     int mi = 60;
-    res->prof[0] = gp_root(&g, r, &Ah, &Bh, cc, -1.0, x0lo, sc, mi);
-    res->prof[1] = gp_root(&g, r, &Ah, &Bh, cc, +1.0, x0hi, sc, mi);
+    res->prof[0] = gp_root(&g, r, Mh, cc, -1.0, x0lo, sc, mi);
+    res->prof[1] = gp_root(&g, r, Mh, cc, +1.0, x0hi, sc, mi);
     if (tf_isnan(res->prof[0]) || tf_isnan(res->prof[1]))
       return 1;
   }
@@ -1701,16 +1795,16 @@ static void win_init(win_t *w, const struct twofold_fit_options *o,
 }
 
 int tf_growth_geom(const struct twofold_fit_options *o, const double *y,
-                   size_t n, int wd0, const double *Yk, double T,
-                   unsigned want, double r0, const double *hint, tf_quant *Q,
-                   tf_gres *res) {
+                   size_t n, size_t nmiss, int wd0, const double *Yk,
+                   double T, unsigned want, double r0, const double *hint,
+                   tf_quant *Q, tf_gres *res) {
   win_t w;
   win_init(&w, o, y, NULL, n, wd0);
   int nc = w.nc;
   res_clear(res, o->model, nc, o->level);
   res->wd0 = wd0;
   w.geom = 1;
-  w.used = n;
+  w.used = n - nmiss;
   w.T = T;
   double Ytot = 0.0;
   for (int k = 0; k < 7 && (size_t)k < n; k++)
@@ -1744,6 +1838,29 @@ int tf_growth_geom(const struct twofold_fit_options *o, const double *y,
     w.yfirst[0] = y[0];
     w.ylast[0] = y[n - 1];
   }
+  if (nmiss > 0) {
+    /* the present days of each class: count, first and last */
+    size_t step = nc == 7 ? 7 : 1;
+    for (int j = 0; j < nc; j++) {
+      if (w.cnt[j] == 0)
+        continue;
+      size_t L = w.cnt[j], u = (size_t)w.u0[j];
+      w.cnt[j] = 0;
+      w.tfirst[j] = w.tlast[j] = -1;
+      for (size_t k = 0; k < L; k++) {
+        size_t t = u + step * k;
+        if (tf_isnan(y[t]))
+          continue;
+        w.cnt[j]++;
+        if (w.tfirst[j] < 0) {
+          w.tfirst[j] = (long)t;
+          w.yfirst[j] = y[t];
+        }
+        w.tlast[j] = (long)t;
+        w.ylast[j] = y[t];
+      }
+    }
+  }
   int rc = checks(&w, o, res, 0);
   if (rc)
     return rc;
@@ -1756,9 +1873,11 @@ int tf_growth_geom(const struct twofold_fit_options *o, const double *y,
   res->wd0 = wd0;
   res->flags = fl;
   res->used = w.used;
-  res->missing = 0;
+  res->missing = nmiss;
   res->events = w.Ytot;
   res->df = (double)(w.used - (size_t)nc - 1);
+  if (nmiss > 0)
+    w.geom = 0; /* the closed forms assume whole classes */
   return pois_finish(&w, o, want, r0, Q, res);
 }
 
