@@ -40,6 +40,10 @@
  * is solved in O(classes)), then Newton on log theta at fixed mu (the
  * score and information of MASS's theta.ml), until both are stationary.
  * theta is capped at TF_THETA_CAP (TWOFOLD_FIT_THETA_CAPPED).  The
+ * alternation's result is then polished, and a window started from the
+ * previous day's estimate (rolling fits) is fitted, by Newton's method
+ * on all parameters jointly (nb_joint), which falls back to the
+ * alternation whenever it cannot proceed safely.  The
  * standard error of r uses the expected information (X'WX)^{-1},
  * W = mu / (1 + mu/theta), at the estimates, as glm.nb and statsmodels'
  * GLM do (beta and theta are orthogonal in expectation: Lawless 1987,
@@ -1996,9 +2000,9 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
   if (want & TF_WANT_LOGLIK) {
     nb_stats(&w, &np, &res->se, &res->pearson, &res->dev);
     res->disp = res->pearson / res->df;
-  } else {
+  } else if (want & (TF_WANT_WALD | TF_WANT_PROFILE)) {
     nb_stats(&w, &np, &res->se, NULL, NULL);
-  }
+  } /* else (rolling, small-sample interval only): no use for the ML SE */
   int need_ll = (want & (TF_WANT_LOGLIK | TF_WANT_PROFILE)) != 0;
   double lhat = need_ll ? nb_loglik(&w, &np) : NAN;
   res->ll = (want & TF_WANT_LOGLIK) ? lhat : NAN;
