@@ -1268,7 +1268,17 @@ static int region_put(reader *rd, size_t r, int32_t day, const double *v,
                : TWOFOLD_OK;
   }
   if (g->cap == 0) {
-    int rc = region_resize(rd, g, 32, day);
+    /* Room for as many days as the region before spans: in a file sorted
+     * by region that region is complete, and this one is likely as long,
+     * so its arrays need not grow day by day (build() trims them). */
+    size_t cap = 32;
+    if (r > 0) {
+      const region *p = &rd->rg[r - 1];
+      size_t prev = p->cap ? (size_t)((int64_t)p->hi - p->lo + 1) : 0;
+      if (prev > cap)
+        cap = prev;
+    }
+    int rc = region_resize(rd, g, cap, day);
     if (rc)
       return rc;
     g->lo = g->hi = day;

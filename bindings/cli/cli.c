@@ -301,7 +301,20 @@ static void fmt_shortest(char *out, size_t size, double v) {
       if (round_trips(out, size, p, v))
         break;
   } else {
+    /* Most doubles from a fit need 16 or 17 digits: try those first, then
+     * bisect what is left (the same count as bisecting 1..17). */
     int lo = 1, hi = 17, held = 0; /* held: the digits now in out */
+    held = 16;
+    if (!round_trips(out, size, 16, v))
+      lo = 17;
+    else {
+      hi = 16;
+      held = 15;
+      if (!round_trips(out, size, 15, v))
+        lo = 16;
+      else
+        hi = 15;
+    }
     while (lo < hi) {
       int mid = (lo + hi) / 2;
       held = mid;
