@@ -341,62 +341,33 @@ static int resolve_columns(const options *o, const twofold_series *s,
   return TF_EXIT_OK;
 }
 
-/* Build the list of targets; *total receives the total series to free. */
+/* Build the list of targets (tf_cli_select_series); *total receives the
+ * total series to free. */
 static int select_targets(const options *o, const twofold_set *set,
                           twofold_series **total, target **out, size_t *n) {
-  size_t count = twofold_set_count(set);
-  *total = NULL;
+  const twofold_series **list = NULL;
+  size_t m = 0;
   *out = NULL;
   *n = 0;
-  if (twofold_set_find(set, TOTAL_LABEL) != NULL) {
-    tf_cli_msg("a region in the input is called '" TOTAL_LABEL
-               "', the label of the sum over regions");
-    return TF_EXIT_DATA;
-  }
-  int want_total = !o->no_total && o->nregions == 0;
-  for (size_t i = 0; i < o->nregions; i++) {
-    if (strcmp(o->regions[i], TOTAL_LABEL) == 0)
-      want_total = 1;
-    else if (twofold_set_find(set, o->regions[i]) == NULL) {
-      tf_cli_msg("no region '%s' in the input", o->regions[i]);
-      return TF_EXIT_DATA;
-    }
-  }
-  if (want_total && count > 0) {
-    int rc = twofold_set_total(set, TOTAL_LABEL, total);
-    if (rc != 0) {
-      tf_cli_msg("cannot sum the regions: %s", twofold_strerror(rc));
-      return rc == TWOFOLD_ENOMEM ? TF_EXIT_OUTPUT : TF_EXIT_DATA;
-    }
-  }
-  size_t cap = (o->nregions ? o->nregions : count) + 1;
-  target *t = calloc(cap, sizeof *t);
+  int st = tf_cli_select_series(set, TOTAL_LABEL, o->regions, o->nregions,
+                                o->no_total, total, &list, &m);
+  if (st != TF_EXIT_OK)
+    return st;
+  target *t = calloc(m ? m : 1, sizeof *t);
   if (t == NULL) {
+    free(list);
     tf_cli_msg("out of memory");
     return TF_EXIT_OUTPUT;
   }
-  size_t k = 0;
-  int st = TF_EXIT_OK;
-  if (o->nregions == 0) {
-    for (size_t i = 0; i < count && st == TF_EXIT_OK; i++)
-      st = resolve_columns(o, twofold_set_at(set, i), &t[k++]);
-    if (st == TF_EXIT_OK && *total != NULL)
-      st = resolve_columns(o, *total, &t[k++]);
-  } else {
-    for (size_t i = 0; i < o->nregions && st == TF_EXIT_OK; i++) {
-      const twofold_series *s = strcmp(o->regions[i], TOTAL_LABEL) == 0
-                                    ? *total
-                                    : twofold_set_find(set, o->regions[i]);
-      if (s != NULL)
-        st = resolve_columns(o, s, &t[k++]);
-    }
-  }
+  for (size_t i = 0; i < m && st == TF_EXIT_OK; i++)
+    st = resolve_columns(o, list[i], &t[i]);
+  free(list);
   if (st != TF_EXIT_OK) {
     free(t);
     return st;
   }
   *out = t;
-  *n = k;
+  *n = m;
   return TF_EXIT_OK;
 }
 
