@@ -749,6 +749,10 @@ static void work_free(work *wk) {
  * Whatever the order of the input, the set read in the end decides: a
  * target uses the early estimate only if its window holds the same
  * values (early_holds), so the output is that of fitting after reading. */
+/* Workers wait until this many regions are queued (or the input is
+ * read): fewer wake-ups than one a region. */
+#define EARLY_WAKE 64
+
 typedef struct early_job {
   int state;       /* 0 waiting, 1 estimated, 2 failed: fit again      */
   estimate e;
@@ -794,7 +798,7 @@ static void *early_main(void *arg) {
   size_t w = (size_t)ea->o->window;
   for (;;) {
     pthread_mutex_lock(&ea->mu);
-    while (ea->next == ea->n && !ea->closing)
+    while (ea->n - ea->next < EARLY_WAKE && !ea->closing)
       pthread_cond_wait(&ea->cv, &ea->mu);
     if (ea->next == ea->n) {
       pthread_mutex_unlock(&ea->mu);
@@ -875,7 +879,8 @@ static void early_region(void *arg, size_t index, const twofold_series *s) {
   }
   ea->jobs[index] = j;
   ea->queue[ea->n++] = index;
-  pthread_cond_signal(&ea->cv);
+  if (ea->n - ea->next == EARLY_WAKE)
+    pthread_cond_signal(&ea->cv);
   pthread_mutex_unlock(&ea->mu);
 }
 
