@@ -325,6 +325,22 @@ TWOFOLD_API int twofold_read_options_set_date_column(twofold_read_options *o,
 TWOFOLD_API int twofold_read_options_set_count_column(
     twofold_read_options *o, const char *name);
 
+/* Work on regions while the file is still being read: in a long-layout
+ * file, fn(arg, index, s) is called once for each region the reader moves
+ * on from to another, with the region's rows so far as a series s that is
+ * valid only during the call (index: the region's place in the set the
+ * read returns).  In a file sorted by region those rows are complete.  In
+ * any other order a region can get more rows after its call, so only the
+ * set the read returns counts; after the first region that does, no
+ * further calls are made.  No call for wide files, for the last region,
+ * or after an error.  fn is called in the reading thread; fn NULL (the
+ * default) turns the calls off. */
+typedef void (*twofold_read_region_fn)(void *arg, size_t index,
+                                       const twofold_series *s);
+TWOFOLD_API int twofold_read_options_set_region_fn(twofold_read_options *o,
+                                                   twofold_read_region_fn fn,
+                                                   void *arg);
+
 /* Read a CSV file, plain or gzip-compressed (detected by its magic bytes).
  * opts may be NULL (defaults), err may be NULL.  On success *out is a new
  * set the caller frees and err->code is 0; on failure *out is NULL and
