@@ -10,7 +10,7 @@
  *    (kink) and for jump and level segments, over successive districts
  *    until about S CPU seconds (default 2) per kind: mean and largest
  *    milliseconds per series (CPU time of this thread and wall time);
- *  - online: twofold_online_new (jump segments, the first 365 days as
+ *  - online: twofold_online_new (jump, then kink segments, the first 365 days as
  *    history, 100 candidates, seed 1) then twofold_online_add for each of
  *    the other 365 days, on up to 200 districts: microseconds per add;
  *  - pruning: on 3 districts, the default pruning threshold against the
@@ -81,9 +81,10 @@ static int offline(twofold_changes *ch, twofold_cp_options *o, int kind,
   return 0;
 }
 
-static int online(twofold_cp_options *o) {
-  if (twofold_cp_options_set_kind(o, TWOFOLD_CP_JUMP) != 0)
+static int online(twofold_cp_options *o, int kind) {
+  if (twofold_cp_options_set_kind(o, kind) != 0)
     return 1;
+  int jump = kind == TWOFOLD_CP_JUMP;
   double cpu = 0, wall = 0, adds = 0, cand = 0;
   size_t districts = 0;
   for (size_t i = 0; i < 200; i++) {
@@ -114,13 +115,16 @@ static int online(twofold_cp_options *o) {
     districts++;
     twofold_online_free(on);
   }
-  printf("online jump, %d candidates: %zu districts x %d days; per "
+  printf("online %s, %d candidates: %zu districts x %d days; per "
          "region-day CPU %.2f us, wall %.2f us (%.0f candidates kept at the "
          "end on average)\n",
-         CANDIDATES, districts, N - HISTORY, 1e6 * cpu / adds,
-         1e6 * wall / adds, cand / (double)districts);
-  bench_result("online.cpu_us", 1e6 * cpu / adds);
-  bench_result("online.wall_us", 1e6 * wall / adds);
+         twofold_cp_kind_to_string(kind), CANDIDATES, districts,
+         N - HISTORY, 1e6 * cpu / adds, 1e6 * wall / adds,
+         cand / (double)districts);
+  bench_result(jump ? "online.cpu_us" : "online.kink.cpu_us",
+               1e6 * cpu / adds);
+  bench_result(jump ? "online.wall_us" : "online.kink.wall_us",
+               1e6 * wall / adds);
   fflush(stdout);
   return 0;
 }
@@ -233,7 +237,7 @@ int main(int argc, char **argv) {
     for (int k = 0; k < 3; k++)
       rc |= offline(ch, o, kinds[k], seconds);
   if (all || strcmp(part, "online") == 0)
-    rc |= online(o);
+    rc = rc | online(o, TWOFOLD_CP_JUMP) | online(o, TWOFOLD_CP_KINK);
   if (all || strcmp(part, "prune") == 0)
     for (int k = 2; k >= (kink_prune ? 0 : 1); k--)
       rc |= pruning(ch, o, kinds[k]);

@@ -325,6 +325,22 @@ TWOFOLD_API int twofold_read_options_set_date_column(twofold_read_options *o,
 TWOFOLD_API int twofold_read_options_set_count_column(
     twofold_read_options *o, const char *name);
 
+/* Work on regions while the file is still being read: in a long-layout
+ * file, fn(arg, index, s) is called once for each region the reader moves
+ * on from to another, with the region's rows so far as a series s that is
+ * valid only during the call (index: the region's place in the set the
+ * read returns).  In a file sorted by region those rows are complete.  In
+ * any other order a region can get more rows after its call, so only the
+ * set the read returns counts; after the first region that does, no
+ * further calls are made.  No call for wide files, for the last region,
+ * or after an error.  fn is called in the reading thread; fn NULL (the
+ * default) turns the calls off. */
+typedef void (*twofold_read_region_fn)(void *arg, size_t index,
+                                       const twofold_series *s);
+TWOFOLD_API int twofold_read_options_set_region_fn(twofold_read_options *o,
+                                                   twofold_read_region_fn fn,
+                                                   void *arg);
+
 /* Read a CSV file, plain or gzip-compressed (detected by its magic bytes).
  * opts may be NULL (defaults), err may be NULL.  On success *out is a new
  * set the caller frees and err->code is 0; on failure *out is NULL and
@@ -581,10 +597,14 @@ TWOFOLD_API int twofold_gi_reproduction_interval(const twofold_gi *gi,
  * Inference: JUMP and LEVEL by the exact recursions of Fearnhead (2006,
  * Statistics and Computing 16:203-213) on segment marginal likelihoods
  * (LEVEL: exact conjugate; JUMP: exact in the level, Laplace in the growth
- * rate), with Fearnhead's pruning; KINK by the same forward/backward
- * recursions on a grid of log-levels at each changepoint (exact tempered
- * Poisson likelihood between grid knots, trapezoid quadrature over the
- * knots).  Online: the particle filter of Fearnhead & Liu (2007, JRSS B
+ * rate), with Fearnhead's pruning; KINK, whose segments share the level
+ * at each change, after Fearnhead & Liu (2011, Statistics and Computing
+ * 21:217-229) by default with the filtered log-level at each change
+ * carried forward as one normal (a collapsed mixture, Harrison & Stevens
+ * 1976, JRSS B 38:205-247) and two-dimensional Laplace segment
+ * likelihoods, then the same recursions; or, on request, on a grid of
+ * log-levels at each change (exact tempered Poisson likelihood between
+ * grid knots, trapezoid quadrature over the knots).  Online: the particle filter of Fearnhead & Liu (2007, JRSS B
  * 69:589-605) with stratified optimal resampling.
  *
  * Day convention: a change "on day i" (0-based index in the series) means
@@ -606,7 +626,7 @@ TWOFOLD_API int twofold_cp_kind_from_string(const char *name);
 
 /* Changepoint options.  Defaults are those stated above, plus: credible
  * level 0.95, pruning threshold 1e-10, up to 20 changes reported in the
- * count distribution, 16 grid points per knot (KINK). */
+ * count distribution, KINK by Laplace messages (grid 0). */
 typedef struct twofold_cp_options twofold_cp_options;
 
 /* Caller frees. */
@@ -682,7 +702,9 @@ TWOFOLD_API int twofold_cp_options_get_max_changes(
 TWOFOLD_API int twofold_cp_options_set_level(twofold_cp_options *o,
                                              double level);
 TWOFOLD_API double twofold_cp_options_get_level(const twofold_cp_options *o);
-/* KINK: grid points per knot, 4..200. */
+/* KINK method: 0 (the default) for collapsed Laplace messages, or 4..200
+ * grid points per knot for the grid method (slower: its cost grows as
+ * the square of the points; used to check the default). */
 TWOFOLD_API int twofold_cp_options_set_grid(twofold_cp_options *o,
                                             int points);
 TWOFOLD_API int twofold_cp_options_get_grid(const twofold_cp_options *o);
@@ -785,7 +807,7 @@ TWOFOLD_API int twofold_changes_map_segment(const twofold_changes *ch,
                                             double *level);
 
 /* Draw `draws` segmentations from the posterior (exact sampling from the
- * recursions; KINK: on the level grid), seeded by seed (same seed, same
+ * recursions; KINK with a grid: on the level grid), seeded by seed (same seed, same
  * draws).  change (draws x n, row-major, may be NULL) gets 1 where day i
  * starts a new regime in draw d, else 0; rate (draws x n, may be NULL)
  * the growth rate of day i in draw d; count (draws, may be NULL) the
@@ -810,15 +832,19 @@ TWOFOLD_API int twofold_changes_length_prior(const twofold_changes *ch,
                                              double *log_pmf,
                                              double *log_surv);
 
-/* Online filter (Fearnhead & Liu 2007) for JUMP and LEVEL segments.
+/* Online filter (Fearnhead & Liu 2007) for KINK, JUMP and LEVEL segments
+ * (KINK by the collapsed Laplace messages of the offline default, whatever
+ * the grid option says).
  * history[0..n_history-1] (may be NULL with n_history 0) estimates the
  * weekday effects, the dispersion (when the options ask for it; without
  * history phi = 1) and the level prior scale as the offline run would, and
  * is fed to the filter; first_weekday is the ISO weekday of the first day
  * (of the history, or of the first added day).  At most max_candidates
  * (>= 2) candidate last changes are kept, reduced by stratified optimal
- * resampling seeded by seed.  o may be NULL (defaults, but JUMP
- * segments); KINK options give TWOFOLD_EINVAL.  Artefact cleaning is not
+ * resampling seeded by seed.  o may be NULL (the defaults: KINK
+ * segments).  Without resampling the filter's evidence and recent-change
+ * probabilities are those of the offline run with pruning off.  Artefact
+ * cleaning is not
  * applied online (it needs days on both sides).  Caller frees. */
 typedef struct twofold_online twofold_online;
 

@@ -43,7 +43,7 @@ void tf_cp_options_defaults(struct twofold_cp_options *o) {
   o->prune = 1e-10;
   o->max_changes = 20;
   o->level = 0.95;
-  o->grid = 16;
+  o->grid = 0;
   o->clean = 1;
 }
 
@@ -286,9 +286,11 @@ double twofold_cp_options_get_level(const twofold_cp_options *o) {
 
 int twofold_cp_options_set_grid(twofold_cp_options *o, int points) {
   OPT_NULL_CHECK(o);
-  if (points < 4 || points > 200)
+  if (points != 0 && (points < 4 || points > 200))
     return tf_msg_set(o->msg, TWOFOLD_ERANGE,
-                      "grid of %d points per knot is outside 4..200", points);
+                      "grid of %d points per knot is neither 0 (Laplace "
+                      "messages) nor in 4..200",
+                      points);
   o->grid = points;
   return 0;
 }
@@ -538,7 +540,7 @@ static inline size_t cidx(const twofold_changes *ch, size_t s, size_t e) {
   return ch->off[s] + (e - s);
 }
 
-static int forward_and_results(twofold_changes *ch) {
+int tf_cp_results(twofold_changes *ch) {
   size_t n = ch->n;
   int K = ch->opt.max_changes;
   double lZ = ch->Q[0];
@@ -605,7 +607,7 @@ static int forward_and_results(twofold_changes *ch) {
   for (int m = 0; m <= K; m++)
     ch->kprob[m] = 0;
   rj[0] = 1; /* r_0(0): no change before day 0 */
-  int jump = ch->d.kind == TWOFOLD_CP_JUMP;
+  int jump = ch->d.kind != TWOFOLD_CP_LEVEL; /* KINK (Laplace): as JUMP */
   size_t np1 = n + 1;
   for (size_t s = 0; s < n; s++) {
     if (ch->Fa[s] == -INFINITY)
@@ -735,7 +737,14 @@ static int forward_and_results(twofold_changes *ch) {
   free(bp);
   for (size_t j = 0; j <= cnt; j++) {
     size_t s = ch->mapstart[j], e = ch->mapstart[j + 1] - 1;
-    if (jump) {
+    if (ch->d.kind == TWOFOLD_CP_KINK) {
+      /* the segment's fit given its knot's message; the level is filled
+       * in by kink_laplace.c */
+      size_t c = cidx(ch, s, e);
+      ch->mapb[j] = ch->cb[c];
+      ch->mapbsd[j] = sqrt(ch->cv[c]);
+      ch->maplvl[j] = NAN;
+    } else if (jump) {
       double b = ch->cb[cidx(ch, s, e)], v, lvl;
       tf_seg_jump(&ch->d, s, e, &b, &v, &lvl);
       ch->mapb[j] = b;
@@ -835,8 +844,12 @@ int twofold_changes_run(twofold_changes *ch, const twofold_cp_options *o,
   rc = alloc_results(ch);
   if (rc)
     return fail(ch, rc);
-  if (ch->opt.kind == TWOFOLD_CP_KINK) {
+  if (ch->opt.kind == TWOFOLD_CP_KINK && ch->opt.grid > 0) {
     rc = tf_kink_run(ch);
+    if (rc)
+      return fail(ch, rc);
+  } else if (ch->opt.kind == TWOFOLD_CP_KINK) {
+    rc = tf_kinkl_run(ch);
     if (rc)
       return fail(ch, rc);
   } else {
@@ -849,7 +862,7 @@ int twofold_changes_run(twofold_changes *ch, const twofold_cp_options *o,
     rc = backward(ch);
     if (rc)
       return fail(ch, rc);
-    rc = forward_and_results(ch);
+    rc = tf_cp_results(ch);
     if (rc)
       return fail(ch, rc);
   }
@@ -1089,11 +1102,11 @@ int twofold_changes_sample(const twofold_changes *ch, uint64_t seed,
   size_t n = ch->n;
   if (draws > 0 && n > SIZE_MAX / draws)
     return TWOFOLD_ETOOLARGE;
-  if (ch->opt.kind == TWOFOLD_CP_KINK)
+  if (ch->kink)
     return tf_kink_sample(ch, seed, draws, change, rate, count);
   tf_rng r;
   tf_rng_seed(&r, seed);
-  int jump = ch->opt.kind == TWOFOLD_CP_JUMP;
+  int jump = ch->opt.kind != TWOFOLD_CP_LEVEL; /* KINK (Laplace): as JUMP */
   for (size_t dr = 0; dr < draws; dr++) {
     size_t s = 0, cnt = 0;
     if (change)

@@ -88,6 +88,21 @@ double tf_seg_level(const tf_cpdata *d, size_t s, size_t e, double *lvl);
 double tf_seg_jump(const tf_cpdata *d, size_t s, size_t e, double *b,
                    double *bvar, double *lvl);
 
+/* KINK segment (kink_laplace.c): the Laplace fit of [s, e] given the
+ * level at its knot x_s ~ N(m, v) (METHODS B4; the knot sits at day s-1
+ * and eta_t = x_s + b (t - s + 1)). */
+typedef struct tf_kfit {
+  double a, b;   /* posterior mode of (x_s, b); in: starting values (NAN:
+                    from the prior) */
+  double pa, pb; /* the previous mode, for extrapolation (NAN: none)   */
+  double bvar;   /* posterior variance of b                            */
+  double xm, xv; /* mean and variance of the end level a + b (e-s+1)   */
+} tf_kfit;
+/* log P(s, e) without the per-day constants (tf_cpdata.cconst); updates
+ * *fit (warm start in, mode out). */
+double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
+                   double v, tf_kfit *fit);
+
 /* Segment-length prior tables (log), lengths 0..n. */
 typedef struct tf_lenprior {
   size_t n;
@@ -130,7 +145,6 @@ size_t tf_cp_clean(double *y, size_t n);
 /* Validation shared by the offline run and the online filter. */
 int tf_cp_check_counts(const double *y, size_t n, char *msg);
 
-#endif
 
 /* The posterior object.  Fields filled by the JUMP/LEVEL recursions
  * (changes.c) or by the KINK grid recursions (kink.c). */
@@ -161,7 +175,16 @@ struct twofold_changes {
 };
 
 int tf_kink_run(struct twofold_changes *ch);
+/* KINK by collapsed Laplace messages (grid 0): fills Q, Fa, stop, off and
+ * the segment cache as the JUMP recursions do, then the results. */
+int tf_kinkl_run(struct twofold_changes *ch);
+/* Results from Q, Fa, stop, off and the segment cache: change
+ * probabilities, growth, the count distribution and the MAP
+ * segmentation. */
+int tf_cp_results(struct twofold_changes *ch);
 void tf_kink_free(struct tf_kink *k);
 int tf_kink_sample(const struct twofold_changes *ch, uint64_t seed,
                    size_t draws, unsigned char *change, double *rate,
                    size_t *count);
+
+#endif

@@ -40,6 +40,10 @@
  * is solved in O(classes)), then Newton on log theta at fixed mu (the
  * score and information of MASS's theta.ml), until both are stationary.
  * theta is capped at TF_THETA_CAP (TWOFOLD_FIT_THETA_CAPPED).  The
+ * alternation's result is then polished, and a window started from the
+ * previous day's estimate (rolling fits) is fitted, by Newton's method
+ * on all parameters jointly (nb_joint), which falls back to the
+ * alternation whenever it cannot proceed safely.  The
  * standard error of r uses the expected information (X'WX)^{-1},
  * W = mu / (1 + mu/theta), at the estimates, as glm.nb and statsmodels'
  * GLM do (beta and theta are orthogonal in expectation: Lawless 1987,
@@ -145,8 +149,9 @@ static double lnpoch(double theta, double y) {
   return gsl_sf_lnpoch(theta, y);
 }
 
-/* psi(theta + y) - psi(theta) and psi'(theta) - psi'(theta + y); ps0 and
- * ps1 are psi(theta) and psi'(theta) (used only where needed). */
+/* psi(theta + y) - psi(theta) and (d2 not NULL) psi'(theta) -
+ * psi'(theta + y); ps0 and ps1 are psi(theta) and psi'(theta) (used only
+ * where needed). */
 static void psidiff(double theta, double y, double ps0, double ps1,
                     double *d1, double *d2) {
   if (y <= 6.0) {
@@ -157,7 +162,8 @@ static void psidiff(double theta, double y, double ps0, double ps1,
       s2 += u * u;
     }
     *d1 = s1;
-    *d2 = s2;
+    if (d2)
+      *d2 = s2;
     return;
   }
   if (theta >= 1e3) {
@@ -175,11 +181,13 @@ static void psidiff(double theta, double y, double ps0, double ps1,
     double i6 = 1.0 / (x2 * x2 * x2) - 1.0 / (xy2 * xy2 * xy2);
     double i7 = 1.0 / (x2 * x2 * x2 * x) - 1.0 / (xy2 * xy2 * xy2 * xy);
     *d1 = log1p(y / x) + i1 / 2.0 + i2 / 12.0 - i4 / 120.0 + i6 / 252.0;
-    *d2 = i1 + i2 / 2.0 + i3 / 6.0 - i5 / 30.0 + i7 / 42.0;
+    if (d2)
+      *d2 = i1 + i2 / 2.0 + i3 / 6.0 - i5 / 30.0 + i7 / 42.0;
     return;
   }
   *d1 = tf_digamma(theta + y) - ps0;
-  *d2 = ps1 - tf_trigamma(theta + y);
+  if (d2)
+    *d2 = ps1 - tf_trigamma(theta + y);
 }
 
 /* Closed-form moments of k = 0..L-1 under weights e^{b k} (METHODS.md B2):
@@ -593,7 +601,8 @@ static double nb_loglik(const win_t *w, const nbpar *p) {
   return ks_val(&l);
 }
 
-/* Expected-information SE of r, Pearson X^2 and deviance at p. */
+/* Expected-information SE of r, and (pearson not NULL) Pearson X^2 and
+ * deviance at p. */
 static void nb_stats(const win_t *w, const nbpar *p, double *se,
                      double *pearson, double *dev) {
   int nc = w->nc;
@@ -609,6 +618,8 @@ static void nb_stats(const win_t *w, const nbpar *p, double *se,
     double W = th * mu / (th + mu);
     I[j] += W;
     Ir[j] += W * (double)t;
+    if (pearson == NULL)
+      continue;
     double v = mu + mu * mu / th;
     ks_add(&X2, (y - mu) * (y - mu) / v);
     double dd = (y > 0.0 ? y * log(y / mu) : 0.0) -
@@ -630,8 +641,10 @@ static void nb_stats(const win_t *w, const nbpar *p, double *se,
     sch += W * d * d;
   }
   *se = 1.0 / sqrt(sch);
-  *pearson = ks_val(&X2);
-  *dev = ks_val(&D);
+  if (pearson) {
+    *pearson = ks_val(&X2);
+    *dev = ks_val(&D);
+  }
 }
 
 /* ------------------------------------------------------------------ */
@@ -774,7 +787,7 @@ static double cr_grad(const win_t *w, nbpar *p, double tau, int maxit,
     double h = th * m * (th + y) * i2;
     double gt = th * m * (y - m) * i2;
     double d1, d2;
-    psidiff(th, y, ps0, ps1, &d1, &d2);
+    psidiff(th, y, ps0, ps1, &d1, NULL);
     (void)d2;
     ks_add(&S, d1 - log1p(m / th) + (m - y) / den);
     I[j] += W;
@@ -825,9 +838,11 @@ static double cr_grad(const win_t *w, nbpar *p, double tau, int maxit,
  * bracketed by stepping down (or, given a guess of log theta, first
  * tried at guess +- 0.02), then refined by the Illinois variant of
  * false position.  p (in: the ML fit) gets beta at the adjusted theta;
- * mu is scratch of w->used doubles. */
+ * *slope the slope of cr_grad between the last two points (the next
+ * window's first guess of it); mu is scratch of w->used doubles. */
 static double cr_theta(const win_t *w, nbpar *p, int maxit, double tol,
-                       int *fail, double guess, double *mu) {
+                       int *fail, double guess, double *mu, double *slope) {
+  *slope = NAN;
   double b = log(p->theta);
   double gb = cr_grad(w, p, b, maxit, tol, fail, mu);
   if (*fail)
@@ -875,6 +890,7 @@ static double cr_theta(const win_t *w, nbpar *p, int maxit, double tol,
   /* g(a) > 0 > g(b), a < b */
   int side = 0;
   nbpar pc = pa;
+  double xl = a, gl = ga; /* the last point, for *slope */
   for (int k = 0; k < 200; k++) {
     double c = (a * gb - b * ga) / (gb - ga);
     if (!(c > a && c < b))
@@ -882,6 +898,10 @@ static double cr_theta(const win_t *w, nbpar *p, int maxit, double tol,
     double gc = cr_grad(w, &pc, c, maxit, tol, fail, mu);
     if (*fail)
       return NAN;
+    if (c != xl)
+      *slope = (gc - gl) / (c - xl);
+    xl = c;
+    gl = gc;
     if (gc == 0.0 || b - a < 1e-12) {
       *p = pc;
       return exp(c);
@@ -899,12 +919,259 @@ static double cr_theta(const win_t *w, nbpar *p, int maxit, double tol,
         ga *= 0.5;
       side = 1;
     }
-    if (fabs(gc) < 1e-10 || b - a < 1e-11) {
+    if (b - a < 1e-11 * (1.0 + fabs(c))) {
       *p = pc;
       return exp(c);
     }
   }
   *fail = 1;
+  return NAN;
+}
+
+/* ------------------------------------------------------------------ */
+/* Warm-started NB2 fits for rolling windows                           */
+/* ------------------------------------------------------------------ */
+
+/* The sums of one pass over the window at (beta, tau): the score U of
+ * beta (G, gr), its observed information (the arrow H, Hr, Hrr), the
+ * mixed derivative d2l/dbeta dtau (C, Cr), the expected information
+ * X'WX (I, Ir, Irr), and the score of theta S = dl/dtheta with (need_ds)
+ * its derivative DS. */
+typedef struct {
+  double G[7], H[7], Hr[7], C[7], I[7], Ir[7];
+  double gr, Hrr, Cr, Irr, S, DS;
+} nbsums;
+
+static void nb_pass(const win_t *w, const nbpar *p, int need_ds, double *mu,
+                    nbsums *z) {
+  double th = p->theta;
+  double ps0 = tf_digamma(th), ps1 = need_ds ? tf_trigamma(th) : 0.0;
+  memset(z, 0, sizeof *z);
+  ksum S = {0, 0}, D = {0, 0};
+  size_t k = 0;
+  for (size_t t = 0; t < w->n; t++) {
+    double y = w->y[t];
+    if (tf_isnan(y))
+      continue;
+    int j = cls(w, t);
+    double tt = (double)t;
+    double m = exp(offv(w, t) + p->b[j] + p->r * tt);
+    mu[k++] = m;
+    double den = th + m, id = 1.0 / den, i2 = id * id;
+    double s = th * (y - m) * id;
+    double h = th * m * (th + y) * i2;
+    double c = th * m * (y - m) * i2;
+    double W = th * m * id;
+    double d1, d2 = 0.0;
+    psidiff(th, y, ps0, ps1, &d1, need_ds ? &d2 : NULL);
+    ks_add(&S, d1 - log1p(m / th) + (m - y) * id);
+    if (need_ds)
+      ks_add(&D, -d2 + m / (th * den) - (m - y) * i2);
+    z->G[j] += s;
+    z->gr += s * tt;
+    z->H[j] += h;
+    z->Hr[j] += h * tt;
+    z->Hrr += h * tt * tt;
+    z->C[j] += c;
+    z->Cr += c * tt;
+    z->I[j] += W;
+    z->Ir[j] += W * tt;
+    z->Irr += W * tt * tt;
+  }
+  z->S = ks_val(&S);
+  z->DS = ks_val(&D);
+}
+
+/* Solve the arrow system (H, Hr, Hrr) x = (v, vr): x = (xb, xr).  Returns
+ * -1 if it is not positive definite. */
+static int arrow_solve(const nbsums *z, int nc, const double *v, double vr,
+                       double *xb, double *xr) {
+  double sch = z->Hrr, rhs = vr;
+  for (int j = 0; j < nc; j++) {
+    if (!(z->H[j] > 0.0))
+      return -1;
+    sch -= z->Hr[j] * z->Hr[j] / z->H[j];
+    rhs -= z->Hr[j] * v[j] / z->H[j];
+  }
+  if (!(sch > 0.0))
+    return -1;
+  *xr = rhs / sch;
+  for (int j = 0; j < nc; j++)
+    xb[j] = (v[j] - z->Hr[j] * *xr) / z->H[j];
+  return 0;
+}
+
+/* Joint Newton on (r, b, tau = log theta) with the observed information
+ * of all parameters (the beta block arrow-shaped, then the Schur
+ * complement in tau), from a start near the maximum (the previous
+ * window's estimate).  It replaces the alternation of nb_fit when it
+ * converges: every step must see a negative definite Hessian, no step
+ * may be wild and theta must stay well below the cap; otherwise it
+ * returns -1 and the caller alternates from the same start.  It stops
+ * once the Newton decrement is below 1e-2 tol, after that last step.
+ * mu is scratch of w->used doubles. */
+static int nb_joint(const win_t *w, nbpar *p, double tol, double *mu) {
+  int nc = w->nc;
+  const double taumax = log(TF_THETA_CAP) - 2.0;
+  double tau = log(p->theta);
+  for (int it = 1; it <= 30; it++) {
+    nbsums z;
+    nb_pass(w, p, 1, mu, &z);
+    double th = p->theta;
+    double gt = th * z.S;                   /* dl/dtau    */
+    double hh = th * z.S + th * th * z.DS;  /* d2l/dtau2  */
+    double ab[7], ar, cb[7], cr;
+    if (arrow_solve(&z, nc, z.G, z.gr, ab, &ar) != 0 ||
+        arrow_solve(&z, nc, z.C, z.Cr, cb, &cr) != 0)
+      return -1;
+    double ua = ar * z.gr, ca = ar * z.Cr, cc = cr * z.Cr;
+    for (int j = 0; j < nc; j++) {
+      ua += ab[j] * z.G[j];
+      ca += ab[j] * z.C[j];
+      cc += cb[j] * z.C[j];
+    }
+    double scht = -(hh + cc);
+    if (!(scht > 0.0) || !isfinite(ua) || !isfinite(gt))
+      return -1;
+    double num = gt + ca;
+    double dtau = num / scht;
+    double lam2 = ua + num * num / scht;
+    double dr = ar + cr * dtau, db[7];
+    /* damp long steps (theta is loosely determined in short windows) */
+    double mx = fabs(dtau) > fabs(dr) * (double)w->n ? fabs(dtau)
+                                                    : fabs(dr) * (double)w->n;
+    for (int j = 0; j < nc; j++) {
+      db[j] = ab[j] + cb[j] * dtau;
+      if (fabs(db[j]) > mx)
+        mx = fabs(db[j]);
+    }
+    if (!isfinite(mx))
+      return -1;
+    double f = mx > 1.0 ? 1.0 / mx : 1.0;
+    dtau *= f;
+    p->r += f * dr;
+    for (int j = 0; j < nc; j++)
+      p->b[j] += f * db[j];
+    tau += dtau;
+    if (!(tau < taumax && tau > -25.0))
+      return -1;
+    p->theta = exp(tau);
+    if (lam2 < 1e-2 * tol && f == 1.0) {
+      p->capped = 0;
+      p->iter = it;
+      return 0;
+    }
+  }
+  return -1;
+}
+
+/* The Cox-Reid adjusted theta (the root of cr_grad) from a guess of its
+ * log and of the slope of cr_grad in tau (the previous window's), by
+ * passes that each take the Newton step of beta at the current tau and
+ * the secant step of tau on the adjusted score, beta moved along with
+ * dbeta/dtau; the first pass only brings beta to the guessed tau.  The
+ * fixed point is the root of cr_grad with beta = beta_theta.  Stops once
+ * the beta step is below tol (Newton decrement) and the tau step below
+ * 1e-8 with a secant slope of this window (in the flat tail of large
+ * theta the adjusted score tends to 0, and a step from the previous
+ * window's slope alone can look converged), after those steps; then the
+ * expected-information SE of r at the result goes to *se.  p (in: the ML fit, log theta tml) gets beta at
+ * the adjusted theta; *slope the last secant slope.  Returns the adjusted
+ * theta, or NAN when it does not converge in 30 passes, a step is wild,
+ * or tau leaves (tml - 20, tml): the caller then uses cr_theta. */
+static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
+                      double slope0, double tol, double *mu, double *se,
+                      double *slope) {
+  int nc = w->nc;
+  if (!(guess < tml))
+    return NAN;
+  nbpar q = *p;
+  /* without a previous slope, -1 (about its size in short windows) */
+  double tau = guess, tprev = NAN, gprev = NAN;
+  double sl = slope0 < 0.0 && isfinite(slope0) ? slope0 : -1.0;
+  int own = 0; /* a secant slope of this window seen */
+  q.theta = exp(tau);
+  for (int it = 0; it < 30; it++) {
+    nbsums z;
+    nb_pass(w, &q, 0, mu, &z);
+    double th = q.theta;
+    double ab[7], ar, cb[7], cr;
+    if (arrow_solve(&z, nc, z.G, z.gr, ab, &ar) != 0 ||
+        arrow_solve(&z, nc, z.C, z.Cr, cb, &cr) != 0)
+      return NAN;
+    double lam2 = ar * z.gr;
+    for (int j = 0; j < nc; j++)
+      lam2 += ab[j] * z.G[j];
+    double dtau = 0.0;
+    if (it > 0) {
+      /* cr_grad: theta S minus half d/dtau log det X'WX (see there) */
+      double tbar[7], schI = z.Irr;
+      for (int j = 0; j < nc; j++) {
+        if (!(z.I[j] > 0.0))
+          return NAN;
+        tbar[j] = z.Ir[j] / z.I[j];
+        schI -= z.Ir[j] * tbar[j];
+      }
+      if (!(schI > 0.0))
+        return NAN;
+      double dld = 0.0;
+      size_t k = 0;
+      for (size_t t = 0; t < w->n; t++) {
+        if (tf_isnan(w->y[t]))
+          continue;
+        int j = cls(w, t);
+        double tt = (double)t;
+        double m = mu[k++];
+        double den = th + m;
+        double dW = th * m * (m + th * (cb[j] + tt * cr)) / (den * den);
+        double d = tt - tbar[j];
+        dld += dW * (1.0 / z.I[j] + d * d / schI);
+      }
+      double g = th * z.S - 0.5 * dld;
+      if (!isfinite(g))
+        return NAN;
+      if (it > 1 && tau != tprev) {
+        double s2 = (g - gprev) / (tau - tprev);
+        if (s2 < 0.0 && isfinite(s2)) {
+          sl = s2;
+          own = 1;
+        }
+      }
+      tprev = tau;
+      gprev = g;
+      dtau = -g / sl;
+      if (tf_isnan(dtau))
+        return NAN;
+      if (dtau > 0.5) /* the guess was far: a damped step */
+        dtau = 0.5;
+      else if (dtau < -0.5)
+        dtau = -0.5;
+    }
+    double dr = ar + cr * dtau;
+    if (!(fabs(dr) * (double)w->n <= 2.0))
+      return NAN;
+    q.r += dr;
+    for (int j = 0; j < nc; j++)
+      q.b[j] += ab[j] + cb[j] * dtau;
+    tau += dtau;
+    if (!(tau < tml && tau > tml - 20.0))
+      return NAN;
+    q.theta = exp(tau);
+    if (fabs(dtau) == 0.5)
+      own = 0; /* a damped step: no convergence yet */
+    if (own && lam2 < tol && fabs(dtau) < 1e-8) {
+      /* in the flat tail of large theta the root is ill-determined:
+       * leave it to the bracketing search, as the single fit does */
+      if (!(q.theta <= 1e4))
+        return NAN;
+      nb_stats(w, &q, se, NULL, NULL);
+      if (!isfinite(*se))
+        return NAN;
+      *p = q;
+      *slope = sl;
+      return q.theta;
+    }
+  }
   return NAN;
 }
 
@@ -919,6 +1186,8 @@ static const char *const wdname[7] = {"Monday", "Tuesday", "Wednesday",
 static int fail(tf_gres *res, int code, const char *fmt, const char *arg,
                 double v) {
   res->status = code;
+  if (res->quiet)
+    return code;
   char tmp[TF_ERRMSG_SIZE];
   if (arg)
     tf_msg_set(tmp, code, fmt, arg, v);
@@ -937,7 +1206,7 @@ static void res_clear(tf_gres *res, int model, int nc, double level) {
   res->r = res->se = NAN;
   for (int j = 0; j < 7; j++)
     res->b[j] = NAN;
-  res->theta = res->theta_cr = NAN;
+  res->theta = res->theta_cr = res->cr_slope = NAN;
   res->ll = res->dev = res->pearson = res->disp = NAN;
   res->events = NAN;
   res->used = res->missing = 0;
@@ -1021,11 +1290,13 @@ static int checks(win_t *w, const struct twofold_fit_options *o,
                     wdname[j], (double)w->used);
   size_t p = (size_t)nc + 1;
   if (w->used < p + 1 + (size_t)need_extra) {
-    char tmp[TF_ERRMSG_SIZE];
-    tf_msg_set(tmp, TWOFOLD_ENODATA,
-               "%zu days with data, need at least %zu for %zu parameters",
-               w->used, p + 1 + (size_t)need_extra, p + (size_t)need_extra);
-    memcpy(res->msg, tmp, sizeof tmp);
+    if (!res->quiet) {
+      char tmp[TF_ERRMSG_SIZE];
+      tf_msg_set(tmp, TWOFOLD_ENODATA,
+                 "%zu days with data, need at least %zu for %zu parameters",
+                 w->used, p + 1 + (size_t)need_extra, p + (size_t)need_extra);
+      memcpy(res->msg, tmp, sizeof tmp);
+    }
     res->status = TWOFOLD_ENODATA;
     return TWOFOLD_ENODATA;
   }
@@ -1093,17 +1364,26 @@ static void pois_stats(const win_t *w, double r, const double *b,
  * t quantile on the residual degrees of freedom.  See growth.c. */
 static int nb_small(const win_t *w, const nbpar *ml, tf_quant *Q, double df,
                     int maxit, double tol, double *lo, double *hi,
-                    double *theta_cr, double guess, double *mu) {
-  int bad = 0;
+                    double *theta_cr, double guess, double slope0,
+                    double *slope, double *mu) {
   nbpar p = *ml;
-  double th = cr_theta(w, &p, maxit, tol, &bad, guess, mu);
-  if (bad || !(th > 0.0))
-    return -1;
-  p.theta = th;
-  if (nb_beta(w, &p, 0, maxit, tol) < 0)
-    return -1;
-  double se, X2, dev;
-  nb_stats(w, &p, &se, &X2, &dev);
+  double se;
+  /* warm (rolling): the secant passes of cr_fast; else, or if they fail,
+   * the bracketing search */
+  double th = tf_isnan(guess) ? NAN
+                              : cr_fast(w, &p, log(ml->theta), guess, slope0,
+                                        tol, mu, &se, slope);
+  if (tf_isnan(th)) {
+    int bad = 0;
+    p = *ml;
+    th = cr_theta(w, &p, maxit, tol, &bad, guess, mu, slope);
+    if (bad || !(th > 0.0))
+      return -1;
+    p.theta = th;
+    if (nb_beta(w, &p, 0, maxit, tol) < 0)
+      return -1;
+    nb_stats(w, &p, &se, NULL, NULL);
+  }
   double q = tf_quant_t(Q, df);
   *lo = p.r - q * se;
   *hi = p.r + q * se;
@@ -1187,6 +1467,11 @@ typedef struct {
   int La, nb;    /* shorter length; nb = 1 if there is a group of La+1 */
   double YA, YB; /* events in each group */
   double Tp;     /* T - U */
+  /* windows with missing days (gen = 1): one group per class, of
+   * length Lg[i] with the days of mask bit k present; weights Yg */
+  int gen, ng, Lg[7];
+  unsigned long mk[7];
+  double Yg[7];
 } gprof;
 
 #define GP_MAXL 48 /* longer classes use the closed forms of tf_geom */
@@ -1256,15 +1541,81 @@ static void gp_moments(const gprof *g, double r, int need_log, gmom *A,
   }
 }
 
-/* l_p' = d1, -l_p'' = h and l_p''' = d3 at r; the moments in A and B. */
+/* The same moments for each class of a window with missing days (the
+ * present days of class i are the bits of mk[i]); one exponential. */
+static void gp_moments_gen(const gprof *g, double r, int need_log, gmom *M) {
+  double x = g->s * r;
+  double q = exp(-fabs(x));
+  for (int i = 0; i < g->ng; i++) {
+    int L = g->Lg[i];
+    double c = 0.5 * (double)(L - 1);
+    double p = 1.0, S0 = 0.0, S1 = 0.0, S2 = 0.0, S3 = 0.0;
+    for (int k = 0; k < L; k++) {
+      int kk = x > 0.0 ? L - 1 - k : k; /* the day, from the heavy end */
+      if ((g->mk[i] >> kk) & 1ul) {
+        double u = (double)k - c, pu = p * u, pu2 = pu * u;
+        S0 += p;
+        S1 += pu;
+        S2 += pu2;
+        S3 += pu2 * u;
+      }
+      p *= q;
+    }
+    double i0 = 1.0 / S0;
+    double mc = S1 * i0;
+    double v = S2 * i0 - mc * mc;
+    double k3 = S3 * i0 - 3.0 * mc * S2 * i0 + 2.0 * mc * mc * mc;
+    double mk = c + mc;
+    gmom *o = &M[i];
+    o->V = v > 0.0 ? v : 0.0;
+    if (x > 0.0) {
+      o->m = (double)(L - 1) - mk;
+      o->K3 = -k3;
+      o->lE = need_log ? x * (double)(L - 1) + log(S0) : NAN;
+    } else {
+      o->m = mk;
+      o->K3 = k3;
+      o->lE = need_log ? log(S0) : NAN;
+    }
+  }
+}
+
+/* l_p' = d1, -l_p'' = h and l_p''' = d3 at r; the moments of each group
+ * in M (two groups, A and B, for a complete window). */
 static void gp_eval(const gprof *g, double r, int need_log, double *d1,
-                    double *h, double *d3, gmom *A, gmom *B) {
+                    double *h, double *d3, gmom *M) {
+  double s = g->s;
+  if (g->gen) {
+    gp_moments_gen(g, r, need_log, M);
+    double a = 0.0, b = 0.0, c = 0.0;
+    for (int i = 0; i < g->ng; i++) {
+      a += g->Yg[i] * M[i].m;
+      b += g->Yg[i] * M[i].V;
+      c += g->Yg[i] * M[i].K3;
+    }
+    *d1 = g->Tp - s * a;
+    *h = s * s * b;
+    *d3 = -s * s * s * c;
+    return;
+  }
+  gmom *A = &M[0], *B = &M[1];
   B->m = B->V = B->K3 = B->lE = 0.0;
   gp_moments(g, r, need_log, A, B);
-  double s = g->s;
   *d1 = g->Tp - s * (g->YA * A->m + g->YB * B->m);
   *h = s * s * (g->YA * A->V + g->YB * B->V);
   *d3 = -s * s * s * (g->YA * A->K3 + g->YB * B->K3);
+}
+
+/* sum over groups of Y_i (lE_i at M minus lE_i at Mh) */
+static double gp_dlog(const gprof *g, const gmom *M, const gmom *Mh) {
+  if (g->gen) {
+    double d = 0.0;
+    for (int i = 0; i < g->ng; i++)
+      d += g->Yg[i] * (M[i].lE - Mh[i].lE);
+    return d;
+  }
+  return g->YA * (M[0].lE - Mh[0].lE) +
+         (g->nb ? g->YB * (M[1].lE - Mh[1].lE) : 0.0);
 }
 
 /* The end on side sd (+1/-1) of {r : l_p(rhat) - l_p(r) <= cc}: Halley's
@@ -1272,16 +1623,15 @@ static void gp_eval(const gprof *g, double r, int need_log, double *d1,
  * Newton (l_p is concave, so Newton from beyond the end moves
  * monotonically onto it).  Differences of G are taken group by group, so
  * no large log-likelihood values are subtracted.  NaN on failure. */
-static double gp_root(const gprof *g, double rhat, const gmom *Ah,
-                      const gmom *Bh, double cc, double sd, double x0,
-                      double scale, int maxit) {
+static double gp_root(const gprof *g, double rhat, const gmom *Mh,
+                      double cc, double sd, double x0, double scale,
+                      int maxit) {
   double x = x0;
   for (int it = 0; it < maxit; it++) {
-    gmom A, B;
+    gmom M[7];
     double d1, h, d3;
-    gp_eval(g, x, 1, &d1, &h, &d3, &A, &B);
-    double f = (x - rhat) * g->Tp - g->YA * (A.lE - Ah->lE) -
-               (g->nb ? g->YB * (B.lE - Bh->lE) : 0.0) + cc;
+    gp_eval(g, x, 1, &d1, &h, &d3, M);
+    double f = (x - rhat) * g->Tp - gp_dlog(g, M, Mh) + cc;
     if (!(sd * d1 < 0.0) || !isfinite(f))
       return NAN;
     double dn = -f / d1;                /* Newton   */
@@ -1325,16 +1675,33 @@ static int geom_fast(win_t *w, const struct twofold_fit_options *o,
     g.YA = w->Ytot;
   }
   g.Tp = w->T - U;
+  if (w->used < w->n) {
+    /* missing days: one group per class, present days as a mask */
+    g.gen = 1;
+    g.ng = nc;
+    size_t step = nc == 7 ? 7 : 1;
+    for (int j = 0; j < nc; j++) {
+      int L = (int)w->L[j];
+      if (L > GP_MAXL)
+        return 1;
+      g.Lg[j] = L;
+      g.Yg[j] = w->Y[j];
+      g.mk[j] = 0;
+      for (int k = 0; k < L; k++)
+        if (!tf_isnan(w->y[(size_t)w->u0[j] + step * (size_t)k]))
+          g.mk[j] |= 1ul << k;
+    }
+  }
   /* Halley (the third derivative is at hand), safeguarded as pois_solve;
    * it stops once the Newton decrement is below 1e-8 tol, taking that
    * last Newton step: its error, and that of the curvature taken before
    * it, are then far below the single fit's */
   double r = isfinite(r0) ? r0 : 0.0;
   double lo = -INFINITY, hi = INFINITY, d1, h, d3;
-  gmom Ah, Bh;
+  gmom Mh[7];
   int it, done = 0;
   for (it = 1; it <= o->max_iter; it++) {
-    gp_eval(&g, r, 0, &d1, &h, &d3, &Ah, &Bh);
+    gp_eval(&g, r, 0, &d1, &h, &d3, Mh);
     if (!(h > 0.0) || !isfinite(d1))
       return 1;
     double step = d1 / h;
@@ -1369,14 +1736,18 @@ static int geom_fast(win_t *w, const struct twofold_fit_options *o,
   res->se = se;
   res->iter = it;
   res->theta = INFINITY;
-  int need_b = model == TWOFOLD_MODEL_QUASIPOISSON ||
-               (want & (TF_WANT_LOGLIK | TF_WANT_PROFILE | TF_WANT_SMALL));
-  if (need_b) {
+  int need_b = model == TWOFOLD_MODEL_QUASIPOISSON || (want & TF_WANT_LOGLIK);
+  int need_prof = (want & TF_WANT_PROFILE) ||
+                  ((want & TF_WANT_SMALL) && model == TWOFOLD_MODEL_POISSON);
+  if (need_b || need_prof) {
     /* the log sums at the estimate (also the base of the profile) */
-    gp_moments(&g, r, 1, &Ah, &Bh);
-    for (int j = 0; j < nc; j++) {
-      int isb = nc == 7 && g.nb && w->u0[j] < (double)(w->n % 7);
-      double lE = r * w->u0[j] + (isb ? Bh.lE : Ah.lE);
+    gp_eval(&g, r, 1, &d1, &h, &d3, Mh);
+    /* the weekday levels, only where something uses them (the Pearson
+     * and deviance pass); rolling Poisson windows start from r alone */
+    for (int j = 0; need_b && j < nc; j++) {
+      int gi = g.gen ? j
+                     : (nc == 7 && g.nb && w->u0[j] < (double)(w->n % 7));
+      double lE = r * w->u0[j] + Mh[gi].lE;
       res->b[j] = log(w->Y[j]) - lE;
     }
   }
@@ -1396,8 +1767,7 @@ static int geom_fast(win_t *w, const struct twofold_fit_options *o,
     res->wald[0] = r - st;
     res->wald[1] = r + st;
   }
-  if ((want & TF_WANT_PROFILE) ||
-      ((want & TF_WANT_SMALL) && model == TWOFOLD_MODEL_POISSON)) {
+  if (need_prof) {
     double sc = st + 1e-300;
     double x0lo = r - st, x0hi = r + st;
     if (hint && hint[0] < 0.0 && hint[1] > 0.0) {
@@ -1405,8 +1775,8 @@ static int geom_fast(win_t *w, const struct twofold_fit_options *o,
       x0hi = r + hint[1];
     }
     int mi = 60;
-    res->prof[0] = gp_root(&g, r, &Ah, &Bh, cc, -1.0, x0lo, sc, mi);
-    res->prof[1] = gp_root(&g, r, &Ah, &Bh, cc, +1.0, x0hi, sc, mi);
+    res->prof[0] = gp_root(&g, r, Mh, cc, -1.0, x0lo, sc, mi);
+    res->prof[1] = gp_root(&g, r, Mh, cc, +1.0, x0hi, sc, mi);
     if (tf_isnan(res->prof[0]) || tf_isnan(res->prof[1]))
       return 1;
   }
@@ -1429,16 +1799,16 @@ static void win_init(win_t *w, const struct twofold_fit_options *o,
 }
 
 int tf_growth_geom(const struct twofold_fit_options *o, const double *y,
-                   size_t n, int wd0, const double *Yk, double T,
-                   unsigned want, double r0, const double *hint, tf_quant *Q,
-                   tf_gres *res) {
+                   size_t n, size_t nmiss, int wd0, const double *Yk,
+                   double T, unsigned want, double r0, const double *hint,
+                   tf_quant *Q, tf_gres *res) {
   win_t w;
   win_init(&w, o, y, NULL, n, wd0);
   int nc = w.nc;
   res_clear(res, o->model, nc, o->level);
   res->wd0 = wd0;
   w.geom = 1;
-  w.used = n;
+  w.used = n - nmiss;
   w.T = T;
   double Ytot = 0.0;
   for (int k = 0; k < 7 && (size_t)k < n; k++)
@@ -1472,6 +1842,29 @@ int tf_growth_geom(const struct twofold_fit_options *o, const double *y,
     w.yfirst[0] = y[0];
     w.ylast[0] = y[n - 1];
   }
+  if (nmiss > 0) {
+    /* the present days of each class: count, first and last */
+    size_t step = nc == 7 ? 7 : 1;
+    for (int j = 0; j < nc; j++) {
+      if (w.cnt[j] == 0)
+        continue;
+      size_t L = w.cnt[j], u = (size_t)w.u0[j];
+      w.cnt[j] = 0;
+      w.tfirst[j] = w.tlast[j] = -1;
+      for (size_t k = 0; k < L; k++) {
+        size_t t = u + step * k;
+        if (tf_isnan(y[t]))
+          continue;
+        w.cnt[j]++;
+        if (w.tfirst[j] < 0) {
+          w.tfirst[j] = (long)t;
+          w.yfirst[j] = y[t];
+        }
+        w.tlast[j] = (long)t;
+        w.ylast[j] = y[t];
+      }
+    }
+  }
   int rc = checks(&w, o, res, 0);
   if (rc)
     return rc;
@@ -1484,9 +1877,11 @@ int tf_growth_geom(const struct twofold_fit_options *o, const double *y,
   res->wd0 = wd0;
   res->flags = fl;
   res->used = w.used;
-  res->missing = 0;
+  res->missing = nmiss;
   res->events = w.Ytot;
   res->df = (double)(w.used - (size_t)nc - 1);
+  if (nmiss > 0)
+    w.geom = 0; /* the closed forms assume whole classes */
   return pois_finish(&w, o, want, r0, Q, res);
 }
 
@@ -1557,11 +1952,44 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
       th0 = 1.4e-11;
     np.theta = th0;
   }
-  if (nb_fit(&w, &np, 0, o->max_iter, o->tol, mu) != 0) {
-    free(mu);
-    return fail(res, TWOFOLD_ENOCONV,
-                "negative binomial fit did not converge (theta %s%g)", "",
-                np.theta);
+  /* warm: joint Newton; from a capped start, beta at the cap and the
+   * sign of the theta score there; else (or if these fail) alternate */
+  int done = 0;
+  if (wuse && isfinite(warm->theta) && warm->theta > 0.0) {
+    nbpar np0 = np;
+    if (warm->theta >= TF_THETA_CAP) {
+      np.theta = TF_THETA_CAP;
+      int itb = nb_beta(&w, &np, 0, o->max_iter, o->tol);
+      if (itb >= 0) {
+        double dec = INFINITY;
+        nb_mu(&w, &np, mu);
+        double dt = nb_theta(&w, &np, mu, &dec);
+        done = np.capped && dt == 0.0;
+        np.iter = itb + 1;
+      }
+    } else {
+      done = nb_joint(&w, &np, o->tol, mu) == 0;
+    }
+    if (!done)
+      np = np0;
+  }
+  if (!done) {
+    if (nb_fit(&w, &np, 0, o->max_iter, o->tol, mu) != 0) {
+      free(mu);
+      return fail(res, TWOFOLD_ENOCONV,
+                  "negative binomial fit did not converge (theta %s%g)", "",
+                  np.theta);
+    }
+    /* the alternation stops on small steps, which in flat likelihoods
+     * leaves digits; a joint Newton step or two from there polishes
+     * them, so that single and rolling fits agree closely */
+    if (!np.capped) {
+      nbpar pj = np;
+      if (nb_joint(&w, &pj, o->tol, mu) == 0) {
+        pj.iter += np.iter;
+        np = pj;
+      }
+    }
   }
   res->r = np.r;
   memcpy(res->b, np.b, sizeof np.b);
@@ -1569,8 +1997,12 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
   res->iter = it + np.iter;
   if (np.capped)
     res->flags |= TWOFOLD_FIT_THETA_CAPPED;
-  nb_stats(&w, &np, &res->se, &res->pearson, &res->dev);
-  res->disp = res->pearson / res->df;
+  if (want & TF_WANT_LOGLIK) {
+    nb_stats(&w, &np, &res->se, &res->pearson, &res->dev);
+    res->disp = res->pearson / res->df;
+  } else if (want & (TF_WANT_WALD | TF_WANT_PROFILE)) {
+    nb_stats(&w, &np, &res->se, NULL, NULL);
+  } /* else (rolling, small-sample interval only): no use for the ML SE */
   int need_ll = (want & (TF_WANT_LOGLIK | TF_WANT_PROFILE)) != 0;
   double lhat = need_ll ? nb_loglik(&w, &np) : NAN;
   res->ll = (want & TF_WANT_LOGLIK) ? lhat : NAN;
@@ -1599,11 +2031,18 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
     /* the previous window's adjustment, as a first guess */
     double guess = NAN;
     if (wuse && warm->theta_cr > 0.0 && warm->theta > 0.0 &&
-        isfinite(warm->theta_cr) && isfinite(warm->theta))
-      guess = log(np.theta) + log(warm->theta_cr) - log(warm->theta);
+        isfinite(warm->theta_cr) && isfinite(warm->theta)) {
+      /* the previous offset from the ML theta; the previous adjusted
+       * theta itself when either ML theta is at the cap */
+      if (np.capped || warm->theta >= TF_THETA_CAP)
+        guess = log(warm->theta_cr);
+      else
+        guess = log(np.theta) + log(warm->theta_cr) - log(warm->theta);
+    }
+    double slope0 = wuse ? warm->cr_slope : NAN;
     if (nb_small(&w, &np, Q, res->df, o->max_iter, o->tol,
                  &res->small[0], &res->small[1], &res->theta_cr, guess,
-                 mu) != 0) {
+                 slope0, &res->cr_slope, mu) != 0) {
       free(mu);
       return fail(res, TWOFOLD_ENOCONV,
                   "small-sample interval: adjusted theta search failed%s%.0f",

@@ -63,12 +63,14 @@ typedef struct tf_gres {
   double b[7];
   double theta;     /* INFINITY for Poisson models */
   double theta_cr;  /* Cox-Reid adjusted theta used by the small interval */
+  double cr_slope;  /* slope of its equation in log theta (a warm start) */
   double ll, dev, pearson, disp;
   double events;
   size_t used, missing;
   double df;
   int iter;
   double wald[2], prof[2], small[2];
+  int quiet; /* set by the caller (kept by the fit): no message in msg */
   char msg[TF_ERRMSG_SIZE];
 } tf_gres;
 
@@ -80,13 +82,15 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
                    const double *off, size_t n, int wd0, unsigned want,
                    const tf_gres *warm, struct tf_quant *Q, tf_gres *res);
 
-/* The Poisson fit of a complete window without offset from its sums
- * (lib/roll.c): Yk[k] is the sum of y[k], y[k+7], ... inside the window,
- * T = sum t*y[t]; y points at the window's first day (its values are
- * read for the separation checks and the quasi-Poisson dispersion). */
+/* The Poisson fit of a window without offset from its sums (lib/roll.c):
+ * Yk[k] is the sum of the present y[k], y[k+7], ... inside the window,
+ * T = sum t*y[t] over present days, nmiss the number of missing (NaN)
+ * days; y points at the window's first day (its values are read for the
+ * separation checks, the present days of each class when nmiss > 0, and
+ * the quasi-Poisson dispersion). */
 int tf_growth_geom(const struct twofold_fit_options *o, const double *y,
-                   size_t n, int wd0, const double *Yk, double T,
-                   unsigned want, double r0, const double *hint,
+                   size_t n, size_t nmiss, int wd0, const double *Yk,
+                   double T, unsigned want, double r0, const double *hint,
                    struct tf_quant *Q, tf_gres *res);
 
 /* Copy the interval of the given kind (DEFAULT resolved through

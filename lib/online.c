@@ -1,7 +1,7 @@
 /* SPDX-License-Identifier: GPL-3.0-or-later */
 /*
- * Online changepoint filter for JUMP and LEVEL segments (Fearnhead & Liu
- * 2007, JRSS B 69:589-605): the posterior of the start of the current
+ * Online changepoint filter for KINK, JUMP and LEVEL segments (Fearnhead &
+ * Liu 2007, JRSS B 69:589-605): the posterior of the start of the current
  * segment given the data so far, updated day by day (METHODS A4):
  *   w'(s) ~ w(s) S(l)/S(l-1) P(s,t)/P(s,t-1)      (segment goes on)
  *   w'(t) ~ P(t,t) sum_s w(s) g(l)/S(l-1)          (a new segment at t)
@@ -10,7 +10,15 @@
  * one-step predictive.  When the candidates exceed the maximum they are
  * reduced to half of it by stratified optimal resampling (Fearnhead &
  * Liu 2007, sec. 3), which keeps the expected weights unchanged.
+ * KINK segments use the collapsed Laplace messages of kink_laplace.c: each
+ * candidate carries the normal message of the level at its knot and its
+ * segment fit; a new candidate's message is the mixture of the end levels
+ * of the candidates, weighted by their new-segment mass, collapsed to its
+ * mean and variance, as the offline recursion does, so without resampling
+ * the filter reproduces the offline posterior (tests/check_changes.c).
  */
+
+#include <gsl/gsl_sf_psi.h>
 #include "cp.h"
 
 #include <math.h>
@@ -31,6 +39,9 @@ struct twofold_online {
   size_t nc;
   size_t *cs;
   double *cw, *clp, *cb, *cv;
+  /* KINK: per candidate the message of its knot level and its fit */
+  double *cmm, *cmv;
+  tf_kfit *cf;
   double *sortbuf;
   double lpred;
   char msg[TF_ERRMSG_SIZE];
@@ -46,6 +57,9 @@ void twofold_online_free(twofold_online *on) {
   free(on->clp);
   free(on->cb);
   free(on->cv);
+  free(on->cmm);
+  free(on->cmv);
+  free(on->cf);
   free(on->sortbuf);
   free(on);
 }
@@ -96,8 +110,15 @@ static int grow_lenprior(twofold_online *on, size_t need) {
   return 0;
 }
 
-static double seg_lp(const twofold_online *on, size_t s, size_t e, double *b,
-                     double *v) {
+static double seg_lp(twofold_online *on, size_t i, size_t s, size_t e,
+                     double *b, double *v) {
+  if (on->opt.kind == TWOFOLD_CP_KINK) {
+    tf_kfit *f = &on->cf[i];
+    double l = tf_seg_kink(&on->d, s, e, on->cmm[i], on->cmv[i], f);
+    *b = f->b;
+    *v = f->bvar;
+    return l;
+  }
   if (on->opt.kind == TWOFOLD_CP_LEVEL) {
     *b = 0;
     *v = 0;
@@ -147,7 +168,10 @@ static void sor(twofold_online *on, size_t m) {
     double wi = w[i];
     int keep = 0;
     double nw = wi;
-    if (wi >= alpha) {
+    if (wi == 0) {
+      /* no mass (underflowed): never kept, so that a run of them cannot
+       * stop the reduction when alpha comes out as 0 */
+    } else if (wi >= alpha) {
       keep = 1;
     } else {
       U -= wi;
@@ -163,6 +187,11 @@ static void sor(twofold_online *on, size_t m) {
       on->clp[out] = on->clp[i];
       on->cb[out] = on->cb[i];
       on->cv[out] = on->cv[i];
+      if (on->cf) {
+        on->cmm[out] = on->cmm[i];
+        on->cmv[out] = on->cmv[i];
+        on->cf[out] = on->cf[i];
+      }
       out++;
     }
   }
@@ -222,6 +251,11 @@ static void keep_largest(twofold_online *on, size_t m) {
       on->clp[out] = on->clp[i];
       on->cb[out] = on->cb[i];
       on->cv[out] = on->cv[i];
+      if (on->cf) {
+        on->cmm[out] = on->cmm[i];
+        on->cmv[out] = on->cmv[i];
+        on->cf[out] = on->cf[i];
+      }
       out++;
     }
   }
@@ -260,9 +294,17 @@ static int add_day(twofold_online *on, double y) {
   d->cconst[t + 1] = d->cconst[t] + cst;
   d->n = t + 1;
   const tf_lenprior *lp = &on->lp;
+  int kink = on->opt.kind == TWOFOLD_CP_KINK;
   if (t == 0) {
     double b = d->rmean, v = 0;
-    double l0 = seg_lp(on, 0, 0, &b, &v);
+    if (kink) {
+      /* knot 0: log lambda, lambda ~ Gamma(alpha, beta), as a normal */
+      double beta = d->beta > 0 ? d->beta : d->alpha;
+      on->cmm[0] = gsl_sf_psi(d->alpha) - log(beta);
+      on->cmv[0] = gsl_sf_psi_1(d->alpha);
+      on->cf[0] = (tf_kfit){on->cmm[0], d->rmean, NAN, NAN, 0, 0, 0};
+    }
+    double l0 = seg_lp(on, 0, 0, 0, &b, &v);
     on->nc = 1;
     on->cs[0] = 0;
     on->cw[0] = 0;
@@ -274,19 +316,40 @@ static int add_day(twofold_online *on, double y) {
     return 0;
   }
   /* new-segment mass before the day's likelihood */
-  double nm = -INFINITY, ns = 0;
+  double hm = -INFINITY, hs = 0, *hw = on->sortbuf;
   for (size_t i = 0; i < on->nc; i++) {
     size_t s = on->cs[i], l = t - s;
     double h = tf_lg(lp, s, l) - (s == 0 ? lp->lS0[l - 1] : lp->lS[l - 1]);
-    lsum_add(&nm, &ns, on->cw[i] + h);
+    hw[i] = on->cw[i] + h;
+    lsum_add(&hm, &hs, hw[i]);
   }
-  double lnew = nm == -INFINITY ? -INFINITY : nm + log(ns);
+  double lnew = hm == -INFINITY ? -INFINITY : hm + log(hs);
+  /* KINK: the new candidate's message, from the end levels of the
+   * candidates' fits to day t-1 (before they are updated) */
+  double nm = NAN, nv = NAN;
+  if (kink && lnew > -INFINITY) {
+    double s0 = 0, s1 = 0, s2 = 0, ref = NAN;
+    for (size_t i = 0; i < on->nc; i++) {
+      if (hw[i] == -INFINITY)
+        continue;
+      double om = exp(hw[i] - lnew);
+      if (isnan(ref))
+        ref = on->cf[i].xm;
+      double dx = on->cf[i].xm - ref;
+      s0 += om;
+      s1 += om * dx;
+      s2 += om * (on->cf[i].xv + dx * dx);
+    }
+    double mu = s1 / s0, var = s2 / s0 - mu * mu;
+    nm = ref + mu;
+    nv = var > 1e-30 ? var : 1e-30;
+  }
   double zm = -INFINITY, zs = 0;
   for (size_t i = 0; i < on->nc; i++) {
     size_t s = on->cs[i], l = t - s;
     const double *S = s == 0 ? lp->lS0 : lp->lS;
     double b = on->cb[i], v = on->cv[i];
-    double lpn = seg_lp(on, s, t, &b, &v);
+    double lpn = seg_lp(on, i, s, t, &b, &v);
     on->cw[i] += S[l] - S[l - 1] + lpn - on->clp[i];
     on->clp[i] = lpn;
     on->cb[i] = b;
@@ -294,8 +357,14 @@ static int add_day(twofold_online *on, double y) {
     lsum_add(&zm, &zs, on->cw[i]);
   }
   double b = d->rmean, v = 0;
-  double l1 = seg_lp(on, t, t, &b, &v);
-  size_t k = on->nc++;
+  size_t k = on->nc;
+  if (kink) {
+    on->cmm[k] = isnan(nm) ? on->cmm[0] : nm;
+    on->cmv[k] = isnan(nv) ? on->cmv[0] : nv;
+    on->cf[k] = (tf_kfit){on->cmm[k], d->rmean, NAN, NAN, 0, 0, 0};
+  }
+  double l1 = seg_lp(on, k, t, t, &b, &v);
+  on->nc++;
   on->cs[k] = t;
   on->cw[k] = lnew + l1;
   on->clp[k] = l1;
@@ -328,10 +397,6 @@ int twofold_online_new(const twofold_cp_options *o, const double *history,
     opt = *o;
   else
     tf_cp_options_defaults(&opt);
-  if (opt.kind == TWOFOLD_CP_KINK && !o) /* the default for the filter */
-    opt.kind = TWOFOLD_CP_JUMP;
-  if (opt.kind == TWOFOLD_CP_KINK)
-    return TWOFOLD_EINVAL;
   if (first_weekday < 1 || first_weekday > 7 || max_candidates < 2 ||
       max_candidates > 100000 || (n_history > 0 && !history))
     return TWOFOLD_EINVAL;
@@ -350,7 +415,13 @@ int twofold_online_new(const twofold_cp_options *o, const double *history,
   on->cb = malloc(mc * sizeof(double));
   on->cv = malloc(mc * sizeof(double));
   on->sortbuf = malloc((3 * mc + 1) * sizeof(double));
-  if (!on->cs || !on->cw || !on->clp || !on->cb || !on->cv || !on->sortbuf) {
+  if (opt.kind == TWOFOLD_CP_KINK) {
+    on->cmm = malloc(mc * sizeof(double));
+    on->cmv = malloc(mc * sizeof(double));
+    on->cf = malloc(mc * sizeof(tf_kfit));
+  }
+  if (!on->cs || !on->cw || !on->clp || !on->cb || !on->cv || !on->sortbuf ||
+      (opt.kind == TWOFOLD_CP_KINK && (!on->cmm || !on->cmv || !on->cf))) {
     twofold_online_free(on);
     return TWOFOLD_ENOMEM;
   }

@@ -44,6 +44,8 @@ struct twofold_read_options {
   char *region; /* never NULL */
   char *date;   /* never NULL */
   char *count;  /* NULL: the first column that is neither region nor date */
+  twofold_read_region_fn fn; /* called for regions left behind, or NULL */
+  void *fn_arg;
 };
 
 const char *twofold_layout_to_string(int layout) {
@@ -130,6 +132,16 @@ int twofold_read_options_set_region_column(twofold_read_options *o,
 int twofold_read_options_set_date_column(twofold_read_options *o,
                                          const char *name) {
   return o ? set_name(&o->date, name, 0) : TWOFOLD_EINVAL;
+}
+
+int twofold_read_options_set_region_fn(twofold_read_options *o,
+                                       twofold_read_region_fn fn,
+                                       void *arg) {
+  if (o == NULL)
+    return TWOFOLD_EINVAL;
+  o->fn = fn;
+  o->fn_arg = arg;
+  return TWOFOLD_OK;
 }
 
 int twofold_read_options_set_count_column(twofold_read_options *o,
@@ -409,6 +421,7 @@ typedef struct region {
   size_t cap;     /* allocated days */
   double **vals;  /* ncol arrays of cap */
   uint32_t *lines; /* line of each day's row, 0 = not seen */
+  int left;        /* opts->fn was called for it */
 } region;
 
 typedef struct reader {
@@ -443,6 +456,9 @@ typedef struct reader {
   size_t nrg, rgcap;
   size_t last_r;
   int have_last;
+  int fn_off;      /* a region got rows after its opts->fn call */
+  char **fn_names; /* the value column names, for the series views */
+  double **fn_vals;
 
   uint64_t entries; /* region-day entries read */
   uint64_t span;    /* days spanned by all regions together */
@@ -1268,7 +1284,17 @@ static int region_put(reader *rd, size_t r, int32_t day, const double *v,
                : TWOFOLD_OK;
   }
   if (g->cap == 0) {
-    int rc = region_resize(rd, g, 32, day);
+    /* Room for as many days as the region before spans: in a file sorted
+     * by region that region is complete, and this one is likely as long,
+     * so its arrays need not grow day by day (build() trims them). */
+    size_t cap = 32;
+    if (r > 0) {
+      const region *p = &rd->rg[r - 1];
+      size_t prev = p->cap ? (size_t)((int64_t)p->hi - p->lo + 1) : 0;
+      if (prev > cap)
+        cap = prev;
+    }
+    int rc = region_resize(rd, g, cap, day);
     if (rc)
       return rc;
     g->lo = g->hi = day;
@@ -1504,6 +1530,35 @@ static inline uint32_t line32(long line) {
   return line >= (long)UINT32_MAX ? UINT32_MAX : (uint32_t)line;
 }
 
+/* Call opts->fn for region r, which the reader leaves for another, with
+ * a series that borrows the region's arrays. */
+static int region_left(reader *rd, size_t r) {
+  region *g = &rd->rg[r];
+  if (rd->opts->fn == NULL || rd->fn_off || g->left)
+    return TWOFOLD_OK;
+  if (rd->fn_names == NULL) {
+    rd->fn_names = calloc(rd->nval, sizeof *rd->fn_names);
+    rd->fn_vals = calloc(rd->nval, sizeof *rd->fn_vals);
+    if (rd->fn_names == NULL || rd->fn_vals == NULL)
+      return fail(rd, TWOFOLD_ENOMEM, rd->line, 0, "out of memory");
+    for (size_t c = 0; c < rd->nval; c++)
+      rd->fn_names[c] = (char *)ntab_name(&rd->cols, rd->vfield[c]);
+  }
+  g->left = 1;
+  for (size_t c = 0; c < rd->nval; c++)
+    rd->fn_vals[c] = g->vals[c] + (g->lo - g->base);
+  twofold_series view;
+  memset(&view, 0, sizeof view);
+  view.region = (char *)ntab_name(&rd->regs, r);
+  view.first_day = g->lo;
+  view.length = (size_t)((int64_t)g->hi - g->lo + 1);
+  view.ncol = view.cap = rd->nval;
+  view.names = rd->fn_names;
+  view.values = rd->fn_vals;
+  rd->opts->fn(rd->opts->fn_arg, r, &view);
+  return TWOFOLD_OK;
+}
+
 static int long_record(reader *rd) {
   field *rf = &rd->f[rd->ri];
   unescape(rf);
@@ -1516,6 +1571,12 @@ static int long_record(reader *rd) {
     r = ntab_find(t, rf->p, rf->len);
     if (r == (size_t)-1) {
       int rc = region_new(rd, rf, rd->ri, &r);
+      if (rc)
+        return rc;
+    } else if (rd->rg[r].left)
+      rd->fn_off = 1; /* more rows for a region already handed out */
+    if (rd->have_last) {
+      int rc = region_left(rd, rd->last_r);
       if (rc)
         return rc;
     }
@@ -1622,6 +1683,8 @@ static void reader_free(reader *rd) {
   free(rd->vfield);
   free(rd->reg_of);
   free(rd->vtmp);
+  free(rd->fn_names);
+  free(rd->fn_vals);
 }
 
 static int run(reader *rd, twofold_set **out) {
@@ -1700,6 +1763,8 @@ static int read_any(const unsigned char *mem, size_t size, int fd,
     defaults.region = defregion;
     defaults.date = defdate;
     defaults.count = NULL;
+    defaults.fn = NULL;
+    defaults.fn_arg = NULL;
     opts = &defaults;
   }
   reader *rd = calloc(1, sizeof *rd);

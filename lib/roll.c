@@ -13,8 +13,10 @@
  * started from the previous day's estimate and interval offsets.
  * The prefix sums hold whole numbers, which doubles add exactly while the
  * totals stay below 2^53; longer or larger series fall back to direct
- * sums.  Windows with missing days or offsets, and NB2 windows, use the
- * general fit (O(w) per iteration).  Every window starts from the
+ * sums.  Windows with missing days keep the same sums (a missing day
+ * adds 0); their class power sums skip the missing days, so each class
+ * is its own group (one exponential per evaluation still).  Windows with
+ * offsets, and NB2 windows, use the general fit (O(w) per iteration).  Every window starts from the
  * previous day's estimate (NB2: also its Cox-Reid adjustment of theta),
  * and the interval quantiles are computed once per call.
  */
@@ -106,6 +108,8 @@ int twofold_growth_roll(const twofold_fit_options *o, const double *y,
     return TWOFOLD_ENOMEM;
   }
   tf_gres *cur = &res[0], *prev = &res[1];
+  /* only statuses are returned: the windows' messages are not formatted */
+  res[0].quiet = res[1].quiet = 1;
   int have_prev = 0;
   double prev_r = 0.0;
   size_t prev_st = 0;
@@ -118,7 +122,7 @@ int twofold_growth_roll(const twofold_fit_options *o, const double *y,
     size_t st = (size_t)s;
     int cw = (int)((wd0 + st) % 7);
     int rc;
-    if (fast && miss[st + w] == miss[st]) {
+    if (fast) {
       double Yk[7], T = 0.0;
       for (size_t k = 0; k < 7; k++) {
         if (k >= w) {
@@ -138,8 +142,8 @@ int twofold_growth_roll(const twofold_fit_options *o, const double *y,
         hint[0] = prev->prof[0] - prev->r;
         hint[1] = prev->prof[1] - prev->r;
       }
-      rc = tf_growth_geom(o, y + st, w, cw, Yk, T, want,
-                          have_prev ? prev_r : 0.0, hint, &Q, cur);
+      rc = tf_growth_geom(o, y + st, w, miss[st + w] - miss[st], cw, Yk, T,
+                          want, have_prev ? prev_r : 0.0, hint, &Q, cur);
     } else {
       if (have_prev) {
         /* the previous estimate, moved to this window's day 0 */

@@ -435,6 +435,12 @@ START_TEST(roll_equals_fit) {
         roll_vs_fit_shape(1, model, wk, kind, TWOFOLD_ALIGN_CENTRED, 19, 1,
                           0);
       }
+  /* short windows with missing days: classes of one or two days, some
+   * of them wholly missing (the weekday status), each class its own
+   * group in the rolling sums */
+  for (int model = 0; model < 2; model++)
+    for (int kind = 0; kind < 4; kind++)
+      roll_vs_fit_shape(1, model, 1, kind, TWOFOLD_ALIGN_TRAILING, 10, 1, 0);
   roll_vs_fit_shape(1, TWOFOLD_MODEL_POISSON, 0, TWOFOLD_INTERVAL_DEFAULT,
                     TWOFOLD_ALIGN_TRAILING, 56, 0, 0);
   roll_vs_fit_shape(0, TWOFOLD_MODEL_POISSON, 0, TWOFOLD_INTERVAL_WALD,

@@ -915,6 +915,89 @@ START_TEST(large_input) {
 }
 END_TEST
 
+/* twofold_read_options_set_region_fn: the regions handed over while
+ * reading, with their rows so far (the values are the inputs below). */
+typedef struct seen {
+  int n;
+  size_t index[8];
+  char region[8][8];
+  size_t length[8];
+  double last[8], admissions_last[8];
+} seen;
+
+static void on_region(void *arg, size_t index, const twofold_series *s) {
+  seen *k = arg;
+  ck_assert_int_lt(k->n, 8);
+  k->index[k->n] = index;
+  snprintf(k->region[k->n], sizeof k->region[0], "%s",
+           twofold_series_region(s));
+  size_t len = twofold_series_length(s);
+  k->length[k->n] = len;
+  int a = twofold_series_column_index(s, "admissions");
+  ck_assert_int_eq(a, 1);
+  k->last[k->n] = twofold_series_values(s, 0)[len - 1];
+  k->admissions_last[k->n] = twofold_series_values(s, 1)[len - 1];
+  k->n++;
+}
+
+START_TEST(region_fn) {
+  twofold_read_options *o;
+  ck_assert_int_eq(twofold_read_options_new(&o), 0);
+  ck_assert_int_eq(twofold_read_options_set_region_fn(NULL, on_region, NULL),
+                   TWOFOLD_EINVAL);
+  seen k;
+  memset(&k, 0, sizeof k);
+  ck_assert_int_eq(twofold_read_options_set_region_fn(o, on_region, &k), 0);
+  twofold_set *set;
+  twofold_error err;
+  /* Sorted by region: A and B are handed over complete, C (the last) is
+   * not handed over. */
+  const char *sorted = "region,date,cases,admissions\n"
+                       "A,2020-01-01,1,0\nA,2020-01-02,2,1\nA,2020-01-03,3,2\n"
+                       "B,2020-01-02,7,3\nB,2020-01-03,8,4\n"
+                       "C,2020-01-01,5,5\n";
+  ck_assert_int_eq(read_str(sorted, 0, o, &set, &err), 0);
+  ck_assert_int_eq(k.n, 2);
+  ck_assert_uint_eq(k.index[0], 0);
+  ck_assert_str_eq(k.region[0], "A");
+  ck_assert_uint_eq(k.length[0], 3);
+  ck_assert_double_eq(k.last[0], 3);
+  ck_assert_double_eq(k.admissions_last[0], 2);
+  ck_assert_uint_eq(k.index[1], 1);
+  ck_assert_str_eq(k.region[1], "B");
+  ck_assert_uint_eq(k.length[1], 2);
+  ck_assert_double_eq(k.last[1], 8);
+  ck_assert_double_eq(k.admissions_last[1], 4);
+  ck_assert_str_eq(twofold_series_region(twofold_set_at(set, 1)), "B");
+  twofold_set_free(set);
+  /* A comes back after B: A was handed over with one day; the row that
+   * leaves B gives A more rows, so the calls stop there (none for B, C),
+   * and the set has all of A. */
+  memset(&k, 0, sizeof k);
+  const char *mixed = "region,date,cases,admissions\n"
+                      "A,2020-01-01,1,0\nB,2020-01-01,4,1\n"
+                      "A,2020-01-02,2,1\nC,2020-01-01,6,2\n"
+                      "D,2020-01-01,9,3\n";
+  ck_assert_int_eq(read_str(mixed, 0, o, &set, &err), 0);
+  ck_assert_int_eq(k.n, 1);
+  ck_assert_str_eq(k.region[0], "A");
+  ck_assert_uint_eq(k.length[0], 1);
+  ck_assert_uint_eq(twofold_series_length(twofold_set_find(set, "A")), 2);
+  twofold_set_free(set);
+  /* Wide files: no calls. */
+  memset(&k, 0, sizeof k);
+  const char *wide = "date,A,B\n2020-01-01,1,2\n2020-01-02,3,4\n";
+  ck_assert_int_eq(read_str(wide, 0, o, &set, &err), 0);
+  ck_assert_int_eq(k.n, 0);
+  twofold_set_free(set);
+  /* NULL turns the calls off. */
+  ck_assert_int_eq(twofold_read_options_set_region_fn(o, NULL, NULL), 0);
+  ck_assert_int_eq(read_str(sorted, 0, o, &set, &err), 0);
+  twofold_set_free(set);
+  twofold_read_options_free(o);
+}
+END_TEST
+
 static Suite *read_suite(void) {
   Suite *s = suite_create("read");
   TCase *tc = tcase_create("malformed");
@@ -936,6 +1019,7 @@ static Suite *read_suite(void) {
   tcase_add_test(tc, selected_columns);
   tcase_add_test(tc, count_boundary);
   tcase_add_test(tc, million_day_region);
+  tcase_add_test(tc, region_fn);
   suite_add_tcase(s, tc);
   tc = tcase_create("streams");
   tcase_set_timeout(tc, 120); /* generous for runs under valgrind */

@@ -340,59 +340,29 @@ static int resolve_column(const bk_input *in, const twofold_series *s,
 
 int bk_select_targets(const bk_input *in, const twofold_set *set,
                       twofold_series **total, bk_target **out, size_t *n) {
-  size_t count = twofold_set_count(set);
-  *total = NULL;
+  const twofold_series **list = NULL;
+  size_t m = 0;
   *out = NULL;
   *n = 0;
-  if (twofold_set_find(set, BK_TOTAL_LABEL) != NULL) {
-    tf_cli_msg("a region in the input is called '" BK_TOTAL_LABEL
-               "', the label of the sum over regions");
-    return TF_EXIT_DATA;
-  }
-  int want_total = !in->no_total && in->nregions == 0;
-  for (size_t i = 0; i < in->nregions; i++) {
-    if (strcmp(in->regions[i], BK_TOTAL_LABEL) == 0)
-      want_total = 1;
-    else if (twofold_set_find(set, in->regions[i]) == NULL) {
-      tf_cli_msg("no region '%s' in the input", in->regions[i]);
-      return TF_EXIT_DATA;
-    }
-  }
-  if (want_total && count > 0) {
-    int rc = twofold_set_total(set, BK_TOTAL_LABEL, total);
-    if (rc != 0) {
-      tf_cli_msg("cannot sum the regions: %s", twofold_strerror(rc));
-      return rc == TWOFOLD_ENOMEM ? TF_EXIT_OUTPUT : TF_EXIT_DATA;
-    }
-  }
-  size_t cap = (in->nregions ? in->nregions : count) + 1;
-  bk_target *t = calloc(cap, sizeof *t);
+  int st = tf_cli_select_series(set, BK_TOTAL_LABEL, in->regions,
+                                in->nregions, in->no_total, total, &list, &m);
+  if (st != TF_EXIT_OK)
+    return st;
+  bk_target *t = calloc(m ? m : 1, sizeof *t);
   if (t == NULL) {
+    free(list);
     tf_cli_msg("out of memory");
     return TF_EXIT_OUTPUT;
   }
-  size_t k = 0;
-  int st = TF_EXIT_OK;
-  if (in->nregions == 0) {
-    for (size_t i = 0; i < count && st == TF_EXIT_OK; i++)
-      st = resolve_column(in, twofold_set_at(set, i), &t[k++]);
-    if (st == TF_EXIT_OK && *total != NULL)
-      st = resolve_column(in, *total, &t[k++]);
-  } else {
-    for (size_t i = 0; i < in->nregions && st == TF_EXIT_OK; i++) {
-      const twofold_series *s = strcmp(in->regions[i], BK_TOTAL_LABEL) == 0
-                                    ? *total
-                                    : twofold_set_find(set, in->regions[i]);
-      if (s != NULL)
-        st = resolve_column(in, s, &t[k++]);
-    }
-  }
+  for (size_t i = 0; i < m && st == TF_EXIT_OK; i++)
+    st = resolve_column(in, list[i], &t[i]);
+  free(list);
   if (st != TF_EXIT_OK) {
     free(t);
     return st;
   }
   *out = t;
-  *n = k;
+  *n = m;
   return TF_EXIT_OK;
 }
 

@@ -185,6 +185,62 @@ int tf_cli_read_inputs(char *const *paths, size_t npaths,
   return TF_EXIT_OK;
 }
 
+int tf_cli_select_series(const twofold_set *set, const char *label,
+                         const char *const *regions, size_t nregions,
+                         int no_total, twofold_series **total,
+                         const twofold_series ***out, size_t *n) {
+  size_t count = twofold_set_count(set);
+  *total = NULL;
+  *out = NULL;
+  *n = 0;
+  if (twofold_set_find(set, label) != NULL) {
+    tf_cli_msg("a region in the input is called '%s', the label of the sum "
+               "over regions",
+               label);
+    return TF_EXIT_DATA;
+  }
+  int want_total = !no_total && nregions == 0;
+  for (size_t i = 0; i < nregions; i++) {
+    if (strcmp(regions[i], label) == 0)
+      want_total = 1;
+    else if (twofold_set_find(set, regions[i]) == NULL) {
+      tf_cli_msg("no region '%s' in the input", regions[i]);
+      return TF_EXIT_DATA;
+    }
+  }
+  if (want_total && count > 0) {
+    int rc = twofold_set_total(set, label, total);
+    if (rc != 0) {
+      tf_cli_msg("cannot sum the regions: %s", twofold_strerror(rc));
+      return rc == TWOFOLD_ENOMEM ? TF_EXIT_OUTPUT : TF_EXIT_DATA;
+    }
+  }
+  size_t cap = (nregions ? nregions : count) + 1;
+  const twofold_series **s = calloc(cap, sizeof *s);
+  if (s == NULL) {
+    tf_cli_msg("out of memory");
+    return TF_EXIT_OUTPUT;
+  }
+  size_t k = 0;
+  if (nregions == 0) {
+    for (size_t i = 0; i < count; i++)
+      s[k++] = twofold_set_at(set, i);
+    if (*total != NULL)
+      s[k++] = *total;
+  } else {
+    for (size_t i = 0; i < nregions; i++) {
+      const twofold_series *one = strcmp(regions[i], label) == 0
+                                      ? *total
+                                      : twofold_set_find(set, regions[i]);
+      if (one != NULL)
+        s[k++] = one;
+    }
+  }
+  *out = s;
+  *n = k;
+  return TF_EXIT_OK;
+}
+
 /* ------------------------------------------------------------------ */
 /* Cells                                                               */
 /* ------------------------------------------------------------------ */
@@ -301,7 +357,20 @@ static void fmt_shortest(char *out, size_t size, double v) {
       if (round_trips(out, size, p, v))
         break;
   } else {
+    /* Most doubles from a fit need 16 or 17 digits: try those first, then
+     * bisect what is left (the same count as bisecting 1..17). */
     int lo = 1, hi = 17, held = 0; /* held: the digits now in out */
+    held = 16;
+    if (!round_trips(out, size, 16, v))
+      lo = 17;
+    else {
+      hi = 16;
+      held = 15;
+      if (!round_trips(out, size, 15, v))
+        lo = 16;
+      else
+        hi = 15;
+    }
     while (lo < hi) {
       int mid = (lo + hi) / 2;
       held = mid;

@@ -84,6 +84,19 @@ int tf_cli_parse_date(const char *opt, const char *arg, int32_t *day);
 int tf_cli_read_inputs(char *const *paths, size_t npaths,
                        const twofold_read_options *ro, twofold_set **out);
 
+/* The series to report, as every command chooses them: the nregions
+ * named regions in the order given (label names the sum over all
+ * regions), or with none named every region in input order, then the sum
+ * unless no_total.  *total receives the sum when it is built (the caller
+ * frees it), *out an array of the *n series (the caller frees it).
+ * TF_EXIT_OK, TF_EXIT_DATA (a named region is absent, a region is called
+ * label, or the regions cannot be summed) or TF_EXIT_OUTPUT (out of
+ * memory), after a message. */
+int tf_cli_select_series(const twofold_set *set, const char *label,
+                         const char *const *regions, size_t nregions,
+                         int no_total, twofold_series **total,
+                         const twofold_series ***out, size_t *n);
+
 /* ------------------------------------------------------------------ */
 /* Records: tables, TSV, CSV, JSON Lines                               */
 /* ------------------------------------------------------------------ */

@@ -4,7 +4,7 @@
  *
  * For each region, and for their sum, compute the Bayesian changepoint
  * posterior of libtwofold(3) (Fearnhead 2006, Statistics and Computing
- * 16:203-213; kinks on a grid of log-levels after Fearnhead & Liu 2011,
+ * 16:203-213; kinks by Laplace messages after Fearnhead & Liu 2011,
  * Statistics and Computing 21:217-229) and report the changes of the most
  * probable segmentation: date, date interval, the probability of a change
  * in that interval and the growth rate before and after; or, with

@@ -304,10 +304,13 @@ static int parse_args(int argc, char **argv, options *o) {
 /* The rows to report: selected regions, then the total                */
 /* ------------------------------------------------------------------ */
 
+struct early_job;
+
 typedef struct target {
   const twofold_series *s; /* borrowed from the set, or the total      */
   size_t col;              /* count column                              */
   int ocol;                /* offset column, or -1                      */
+  const struct early_job *pre; /* estimated while reading, or NULL      */
 } target;
 
 /* Find the count and offset columns of s; TF_EXIT_DATA if absent. */
@@ -316,6 +319,7 @@ static int resolve_columns(const options *o, const twofold_series *s,
   t->s = s;
   t->col = 0;
   t->ocol = -1;
+  t->pre = NULL;
   if (o->count != NULL) {
     int k = twofold_series_column_index(s, o->count);
     if (k < 0) {
@@ -337,62 +341,33 @@ static int resolve_columns(const options *o, const twofold_series *s,
   return TF_EXIT_OK;
 }
 
-/* Build the list of targets; *total receives the total series to free. */
+/* Build the list of targets (tf_cli_select_series); *total receives the
+ * total series to free. */
 static int select_targets(const options *o, const twofold_set *set,
                           twofold_series **total, target **out, size_t *n) {
-  size_t count = twofold_set_count(set);
-  *total = NULL;
+  const twofold_series **list = NULL;
+  size_t m = 0;
   *out = NULL;
   *n = 0;
-  if (twofold_set_find(set, TOTAL_LABEL) != NULL) {
-    tf_cli_msg("a region in the input is called '" TOTAL_LABEL
-               "', the label of the sum over regions");
-    return TF_EXIT_DATA;
-  }
-  int want_total = !o->no_total && o->nregions == 0;
-  for (size_t i = 0; i < o->nregions; i++) {
-    if (strcmp(o->regions[i], TOTAL_LABEL) == 0)
-      want_total = 1;
-    else if (twofold_set_find(set, o->regions[i]) == NULL) {
-      tf_cli_msg("no region '%s' in the input", o->regions[i]);
-      return TF_EXIT_DATA;
-    }
-  }
-  if (want_total && count > 0) {
-    int rc = twofold_set_total(set, TOTAL_LABEL, total);
-    if (rc != 0) {
-      tf_cli_msg("cannot sum the regions: %s", twofold_strerror(rc));
-      return rc == TWOFOLD_ENOMEM ? TF_EXIT_OUTPUT : TF_EXIT_DATA;
-    }
-  }
-  size_t cap = (o->nregions ? o->nregions : count) + 1;
-  target *t = calloc(cap, sizeof *t);
+  int st = tf_cli_select_series(set, TOTAL_LABEL, o->regions, o->nregions,
+                                o->no_total, total, &list, &m);
+  if (st != TF_EXIT_OK)
+    return st;
+  target *t = calloc(m ? m : 1, sizeof *t);
   if (t == NULL) {
+    free(list);
     tf_cli_msg("out of memory");
     return TF_EXIT_OUTPUT;
   }
-  size_t k = 0;
-  int st = TF_EXIT_OK;
-  if (o->nregions == 0) {
-    for (size_t i = 0; i < count && st == TF_EXIT_OK; i++)
-      st = resolve_columns(o, twofold_set_at(set, i), &t[k++]);
-    if (st == TF_EXIT_OK && *total != NULL)
-      st = resolve_columns(o, *total, &t[k++]);
-  } else {
-    for (size_t i = 0; i < o->nregions && st == TF_EXIT_OK; i++) {
-      const twofold_series *s = strcmp(o->regions[i], TOTAL_LABEL) == 0
-                                    ? *total
-                                    : twofold_set_find(set, o->regions[i]);
-      if (s != NULL)
-        st = resolve_columns(o, s, &t[k++]);
-    }
-  }
+  for (size_t i = 0; i < m && st == TF_EXIT_OK; i++)
+    st = resolve_columns(o, list[i], &t[i]);
+  free(list);
   if (st != TF_EXIT_OK) {
     free(t);
     return st;
   }
   *out = t;
-  *n = k;
+  *n = m;
   return TF_EXIT_OK;
 }
 
@@ -467,10 +442,10 @@ static const char *trend_of(const estimate *e, char *buf, size_t size) {
   }
 }
 
-/* Fit the window of o->window days ending on day end.  Returns 0, or a
- * status that is not a property of the data (out of memory, a bug). */
-static int estimate_window(const options *o, work *wk, const target *t,
-                           int32_t end, estimate *e) {
+/* The counts y and offsets off of the window of o->window days ending on
+ * day end, and the first part of its estimate e. */
+static void fill_window(const options *o, const target *t, int32_t end,
+                        double *wy, double *woff, estimate *e) {
   const twofold_series *s = t->s;
   size_t w = (size_t)o->window;
   int32_t first = twofold_series_first_day(s);
@@ -499,13 +474,20 @@ static int estimate_window(const options *o, work *wk, const target *t,
           off = log(x);
       }
     }
-    wk->y[k] = y;
-    wk->off[k] = off;
+    wy[k] = y;
+    woff[k] = off;
     if (isnan(y))
       e->missing++;
     else
       e->events += y;
   }
+}
+
+/* Fit the window in wk->y and wk->off, whose estimate fill_window began.
+ * Returns 0, or a status that is not a property of the data (out of
+ * memory, a bug). */
+static int fit_window(const options *o, work *wk, estimate *e) {
+  size_t w = (size_t)o->window;
   /* One window of twofold_growth_roll: the fit of twofold_growth_fit,
    * but only the interval of the options' kind is computed (not every
    * kind).  The offset is always given (zeros without --offset): the
@@ -540,6 +522,13 @@ static int estimate_window(const options *o, work *wk, const target *t,
       e->R_hi = NAN;
   }
   return 0;
+}
+
+/* Fit the window of o->window days of target t ending on day end. */
+static int estimate_window(const options *o, work *wk, const target *t,
+                           int32_t end, estimate *e) {
+  fill_window(o, t, end, wk->y, wk->off, e);
+  return fit_window(o, wk, e);
 }
 
 /* Percent change over a week at rate r per day. */
@@ -751,6 +740,204 @@ static void work_free(work *wk) {
 }
 
 /* ------------------------------------------------------------------ */
+/* Estimates made while the input is read                              */
+/* ------------------------------------------------------------------ */
+
+/* In a long file sorted by region the reader hands over each region as
+ * soon as its rows are complete (twofold_read_options_set_region_fn), and
+ * the workers fit its last window while the rest of the file is read.
+ * Whatever the order of the input, the set read in the end decides: a
+ * target uses the early estimate only if its window holds the same
+ * values (early_holds), so the output is that of fitting after reading. */
+/* Workers wait until this many regions are queued (or the input is
+ * read): fewer wake-ups than one a region. */
+#define EARLY_WAKE 64
+
+typedef struct early_job {
+  int state;       /* 0 waiting, 1 estimated, 2 failed: fit again      */
+  estimate e;
+  double *y, *off; /* the window fitted (o->window days each)           */
+  double data[];
+} early_job;
+
+typedef struct early {
+  const options *o;
+  work *wk;
+  pthread_mutex_t mu;
+  pthread_cond_t cv;
+  early_job **jobs; /* by region index; NULL where none               */
+  size_t cap;       /* slots in jobs                                    */
+  size_t *queue;    /* region indices to fit, in the order handed over  */
+  size_t n, qcap, next;
+  int closing; /* the input is read: workers finish the queue and stop */
+  int broken;  /* out of memory: no more early estimates               */
+  pthread_t tid[THREADS_MAX];
+  int started;
+} early;
+
+/* Whether the estimate made while reading holds for target t's window
+ * ending on day end: the same counts and offsets, bit for bit, give the
+ * same fit.  Fills wk->y, wk->off and e on the way. */
+static int early_holds(const options *o, work *wk, const target *t,
+                       int32_t end, estimate *e) {
+  const early_job *j = t->pre;
+  size_t w = (size_t)o->window;
+  if (j->state != 1 || j->e.end != end)
+    return 0;
+  fill_window(o, t, end, wk->y, wk->off, e);
+  if (memcmp(wk->y, j->y, w * sizeof *wk->y) != 0 ||
+      memcmp(wk->off, j->off, w * sizeof *wk->off) != 0)
+    return 0;
+  *e = j->e;
+  return 1;
+}
+
+static void *early_main(void *arg) {
+  early *ea = ((void **)arg)[0];
+  work *wk = ((void **)arg)[1];
+  size_t w = (size_t)ea->o->window;
+  for (;;) {
+    pthread_mutex_lock(&ea->mu);
+    while (ea->n - ea->next < EARLY_WAKE && !ea->closing)
+      pthread_cond_wait(&ea->cv, &ea->mu);
+    if (ea->next == ea->n) {
+      pthread_mutex_unlock(&ea->mu);
+      return NULL;
+    }
+    early_job *j = ea->jobs[ea->queue[ea->next++]];
+    pthread_mutex_unlock(&ea->mu);
+    memcpy(wk->y, j->y, w * sizeof *wk->y);
+    memcpy(wk->off, j->off, w * sizeof *wk->off);
+    j->state = fit_window(ea->o, wk, &j->e) == 0 ? 1 : 2;
+  }
+}
+
+/* twofold_read_region_fn: queue the last window of region s (index in
+ * the set) for the workers. */
+static void early_region(void *arg, size_t index, const twofold_series *s) {
+  early *ea = arg;
+  const options *o = ea->o;
+  if (ea->broken)
+    return;
+  target t;
+  t.s = s;
+  t.col = 0;
+  t.ocol = -1;
+  t.pre = NULL;
+  if (o->count != NULL) {
+    int k = twofold_series_column_index(s, o->count);
+    if (k < 0)
+      return; /* the final pass says so */
+    t.col = (size_t)k;
+  }
+  if (o->offset != NULL) {
+    int k = twofold_series_column_index(s, o->offset);
+    if (k < 0)
+      return;
+    t.ocol = k;
+  }
+  size_t w = (size_t)o->window;
+  early_job *j = malloc(sizeof *j + 2 * w * sizeof(double));
+  if (j == NULL) {
+    ea->broken = 1;
+    return;
+  }
+  j->state = 0;
+  j->y = j->data;
+  j->off = j->data + w;
+  int32_t from, end;
+  target_days(o, &t, &from, &end);
+  fill_window(o, &t, end, j->y, j->off, &j->e);
+  pthread_mutex_lock(&ea->mu);
+  if (index >= ea->cap || ea->n == ea->qcap) {
+    size_t cap = index >= ea->cap ? 2 * index + 64 : ea->cap;
+    size_t qcap = ea->n == ea->qcap ? 2 * ea->qcap + 64 : ea->qcap;
+    early_job **jobs = realloc(ea->jobs, cap * sizeof *jobs);
+    if (jobs != NULL) {
+      for (size_t i = ea->cap; i < cap; i++)
+        jobs[i] = NULL;
+      ea->jobs = jobs;
+      ea->cap = cap;
+    }
+    size_t *queue = jobs != NULL ? realloc(ea->queue, qcap * sizeof *queue)
+                                 : NULL;
+    if (queue != NULL) {
+      ea->queue = queue;
+      ea->qcap = qcap;
+    }
+    if (jobs == NULL || queue == NULL) {
+      ea->broken = 1;
+      pthread_mutex_unlock(&ea->mu);
+      free(j);
+      return;
+    }
+  }
+  if (ea->jobs[index] != NULL) { /* not expected: keep the first */
+    pthread_mutex_unlock(&ea->mu);
+    free(j);
+    return;
+  }
+  ea->jobs[index] = j;
+  ea->queue[ea->n++] = index;
+  if (ea->n - ea->next == EARLY_WAKE)
+    pthread_cond_signal(&ea->cv);
+  pthread_mutex_unlock(&ea->mu);
+}
+
+/* Start nw workers, with the work spaces wk; 0 if none could start (no
+ * early estimates then). */
+static int early_start(early *ea, const options *o, work *wk, int nw,
+                       void *args[][2]) {
+  memset(ea, 0, sizeof *ea);
+  ea->o = o;
+  ea->wk = wk;
+  if (pthread_mutex_init(&ea->mu, NULL) != 0)
+    return 0;
+  if (pthread_cond_init(&ea->cv, NULL) != 0) {
+    pthread_mutex_destroy(&ea->mu);
+    return 0;
+  }
+  for (int k = 0; k < nw; k++) {
+    args[k][0] = ea;
+    args[k][1] = &wk[k];
+    if (pthread_create(&ea->tid[k], NULL, early_main, args[k]) != 0)
+      break;
+    ea->started++;
+  }
+  if (ea->started == 0) {
+    pthread_cond_destroy(&ea->cv);
+    pthread_mutex_destroy(&ea->mu);
+  }
+  return ea->started;
+}
+
+/* Let the workers finish the queue, and join them. */
+static void early_finish(early *ea) {
+  if (ea->started == 0)
+    return;
+  pthread_mutex_lock(&ea->mu);
+  ea->closing = 1;
+  pthread_cond_broadcast(&ea->cv);
+  pthread_mutex_unlock(&ea->mu);
+  for (int k = 0; k < ea->started; k++)
+    pthread_join(ea->tid[k], NULL);
+  pthread_cond_destroy(&ea->cv);
+  pthread_mutex_destroy(&ea->mu);
+  ea->started = 0;
+}
+
+static void early_free(early *ea) {
+  early_finish(ea);
+  for (size_t i = 0; i < ea->cap; i++)
+    free(ea->jobs[i]);
+  free(ea->jobs);
+  free(ea->queue);
+  ea->jobs = NULL;
+  ea->queue = NULL;
+  ea->cap = 0;
+}
+
+/* ------------------------------------------------------------------ */
 /* Regions on several threads                                          */
 /* ------------------------------------------------------------------ */
 
@@ -784,6 +971,10 @@ static void estimate_target(const options *o, work *wk, const target *t,
                             result *r) {
   int32_t from, end;
   target_days(o, t, &from, &end);
+  if (r->n == 1 && t->pre != NULL && early_holds(o, wk, t, from, &r->e[0])) {
+    r->done = 1;
+    return;
+  }
   for (r->done = 0; r->done < r->n; r->done++) {
     int rc = estimate_window(o, wk, t, from + (int32_t)r->done,
                              &r->e[r->done]);
@@ -980,18 +1171,49 @@ static int run(const options *o, char **files, size_t nfiles) {
   work *wk = NULL;
   int nw = 0;
   int st;
+  early ea;
+  void *eargs[THREADS_MAX][2];
+  memset(&ea, 0, sizeof ea);
 
   if (make_read_options(o, &ro) != 0) {
     tf_cli_msg("out of memory");
     st = TF_EXIT_OUTPUT;
     goto done;
   }
-  if ((st = tf_cli_read_inputs(files, nfiles, ro, &set)) != TF_EXIT_OK)
+  /* The latest estimate of every region of one file: fit regions while
+   * the file is read (see early_region), with the work spaces made now.
+   * If they cannot be made, the work spaces are made after reading, as
+   * without this, and any message comes at the same point. */
+  if (!o->summary && !o->every_day && o->nregions == 0 && nfiles == 1) {
+    nw = o->threads;
+    wk = calloc((size_t)nw, sizeof *wk);
+    int ok = wk != NULL;
+    for (int k = 0; ok && k < nw; k++)
+      ok = work_init(o, &wk[k]) == 0;
+    if (ok && early_start(&ea, o, wk, nw, eargs) > 0)
+      ok = twofold_read_options_set_region_fn(ro, early_region, &ea) == 0;
+    else
+      ok = 0;
+    if (!ok) {
+      early_free(&ea);
+      for (int k = 0; wk != NULL && k < nw; k++)
+        work_free(&wk[k]);
+      free(wk);
+      wk = NULL;
+      nw = 0;
+    }
+  }
+  st = tf_cli_read_inputs(files, nfiles, ro, &set);
+  early_finish(&ea);
+  if (st != TF_EXIT_OK)
     goto done;
   if ((st = select_targets(o, set, &total, &targets, &ntargets)) !=
       TF_EXIT_OK)
     goto done;
-  if (!o->summary) {
+  for (size_t i = 0; i < ntargets && i < ea.cap; i++)
+    if (targets[i].s == twofold_set_at(set, i))
+      targets[i].pre = ea.jobs[i];
+  if (!o->summary && wk == NULL) {
     /* One work space, with its own options, per thread. */
     nw = o->threads;
     if ((size_t)nw > ntargets)
@@ -1065,6 +1287,7 @@ static int run(const options *o, char **files, size_t nfiles) {
     out = NULL;
   }
 done:
+  early_free(&ea);
   tf_output_abort(out);
   tf_writer_free(w);
   for (int k = 0; k < nw; k++)

@@ -69,3 +69,34 @@ def test_changepoint_errors():
     assert info.value.code in (twofold.CODES["ECOUNT"], twofold.CODES["EINVAL"])
     with pytest.raises(twofold.TwofoldError):
         twofold.find_changes(invented(), START, kind="sideways")
+
+
+def test_online_filter_follows_offline_posterior():
+    # With pruning off and room for every candidate the online filter
+    # reproduces the offline run (libtwofold(3)): the sum of one-step log
+    # predictives is the log evidence, and P(a change in the last 7 days)
+    # is the sum of the offline P(change) over them (segments of at least
+    # 7 days hold at most one change there).
+    y = invented()
+    opts = dict(prune=0, level_prior=(1.0, 0.02), dispersion=1.0,
+                weekday=False)
+    off = twofold.find_changes(y, START, **opts)
+    on = twofold.OnlineChanges(1000, 1, start=START, **opts)
+    total = 0.0
+    for c in y:
+        on.add(c)
+        total += on.log_predictive
+    assert on.days == len(y)
+    assert on.today == START + datetime.timedelta(days=len(y) - 1)
+    assert total == pytest.approx(off.log_evidence, abs=1e-7)
+    assert on.p_recent(7) == pytest.approx(float(np.sum(off.p_change[-7:])),
+                                           abs=1e-9)
+    m, lo, hi = on.growth()
+    assert lo <= -0.04 <= hi and lo <= m <= hi
+
+
+def test_online_filter_bad_count_raises():
+    on = twofold.OnlineChanges(50, 3, start=START)
+    with pytest.raises(twofold.TwofoldError) as err:
+        on.add(-1)
+    assert "count" in str(err.value)

@@ -396,7 +396,7 @@ def find_changes(counts, start=None, *, first_weekday=None, kind=None,
 
 class OnlineChanges:
     """The online changepoint filter of Fearnhead & Liu (2007), fed one day
-    at a time (jump and level kinds).
+    at a time (kink, jump and level kinds).
 
     OnlineChanges(max_candidates, seed, history=None, start=None, ...):
     history (counts, as for fit_window) estimates weekday effects,
