@@ -99,8 +99,10 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
   double L = (double)(e - s + 1);
   double a = isfinite(fit->a) ? fit->a : m;
   double b = isfinite(fit->b) ? fit->b : d->rmean;
-  if (isfinite(fit->pa) && isfinite(fit->a)) {
-    /* warm start: the modes of [s, e-2] and [s, e-1] extrapolated */
+  if (isfinite(fit->pa) && isfinite(fit->a) && isfinite(fit->b) &&
+      fabs(fit->a - fit->pa) < 1 && fabs(fit->b - fit->pb) < 0.1) {
+    /* warm start: the modes of [s, e-2] and [s, e-1] extrapolated (not
+     * after a large move) */
     a += fit->a - fit->pa;
     b += fit->b - fit->pb;
   }
@@ -114,9 +116,13 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
     kl_evaluate(d, s, e, c, Y, S1, m, v, a, b, &r);
   }
   double f = r.f;
+  if (f == -INFINITY)
+    goto fallback;
   for (int it = 0; it < 100; it++) {
     double da = (r.hbb * r.ga - r.hab * r.gb) / r.det;
     double db = (r.haa * r.gb - r.hab * r.ga) / r.det;
+    if (!isfinite(da) || !isfinite(db))
+      goto fallback;
     /* Newton decrement: f rises by about lambda2 / 2 to the mode */
     double lambda2 = r.ga * da + r.gb * db;
     if (lambda2 < 1e-6) {
@@ -128,7 +134,14 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
       b += db;
       break;
     }
+    /* a trust region: at most 5 in the log-level and 1 in the growth
+     * rate per step, so that no step leaves the range where the sums are
+     * finite */
     double t = 1;
+    if (fabs(da) > 5)
+      t = 5 / fabs(da);
+    if (fabs(t * db) > 1)
+      t = 1 / fabs(db);
     int h = 0;
     for (;;) {
       kl_evaluate(d, s, e, c, Y, S1, m, v, a + t * da, b + t * db, &rn);
@@ -144,15 +157,32 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
     r = rn;
     f = rn.f;
   }
-  double va = r.hbb / r.det, vb = r.haa / r.det, cab = -r.hab / r.det;
-  fit->a = a;
-  fit->b = b;
-  fit->bvar = vb;
-  fit->xm = a + b * L;
-  double xv = va + L * L * vb + 2 * L * cab;
-  fit->xv = xv > 1e-30 ? xv : 1e-30;
-  /* N(a) N(b) (2 pi)^-1 against the Laplace (2 pi)^+1: they cancel */
-  return f - 0.5 * log(v * d->rsd * d->rsd * r.det);
+  {
+    double va = r.hbb / r.det, vb = r.haa / r.det, cab = -r.hab / r.det;
+    double xv = va + L * L * vb + 2 * L * cab;
+    /* N(a) N(b) (2 pi)^-1 against the Laplace (2 pi)^+1: they cancel */
+    double lp = f - 0.5 * log(v * d->rsd * d->rsd * r.det);
+    if (isfinite(lp) && isfinite(a) && isfinite(b) && isfinite(vb) &&
+        vb > 0 && isfinite(xv)) {
+      fit->a = a;
+      fit->b = b;
+      fit->bvar = vb;
+      fit->xm = a + b * L;
+      fit->xv = xv > 1e-30 ? xv : 1e-30;
+      return lp;
+    }
+  }
+fallback:
+  /* no usable mode (counts and priors far apart beyond double range): the
+   * segment is taken as impossible, and the next warm start begins from
+   * the prior */
+  fit->a = m;
+  fit->b = d->rmean;
+  fit->pa = fit->pb = NAN;
+  fit->bvar = d->rsd * d->rsd;
+  fit->xm = m + d->rmean * L;
+  fit->xv = v + L * L * d->rsd * d->rsd;
+  return -INFINITY;
 }
 
 /* e-major entries before they are put in per-start order. */
@@ -275,7 +305,8 @@ static int kl_forward(twofold_changes *ch, kl_work *w, kl_entries *E) {
     if (e + 1 < n && ch->Fa[e + 1] > -INFINITY) {
       double F = ch->Fa[e + 1], s0 = 0, s1 = 0, s2 = 0, ref = NAN;
       for (size_t i = 0; i < na; i++) {
-        if (w->ws[i] == -INFINITY)
+        if (w->ws[i] == -INFINITY || !isfinite(w->wx[i]) ||
+            !isfinite(w->wv[i]))
           continue;
         double om = exp(w->ws[i] - F);
         if (isnan(ref))
@@ -287,8 +318,8 @@ static int kl_forward(twofold_changes *ch, kl_work *w, kl_entries *E) {
       }
       double mu = s1 / s0;
       double var = s2 / s0 - mu * mu;
-      w->mm[e + 1] = ref + mu;
-      w->mv[e + 1] = var > 1e-30 ? var : 1e-30;
+      w->mm[e + 1] = s0 > 0 ? ref + mu : w->mm[0];
+      w->mv[e + 1] = s0 > 0 ? (var > 1e-30 ? var : 1e-30) : w->mv[0];
     }
     /* pruning */
     if (e + 1 < n && leps > -INFINITY && tot > -INFINITY) {

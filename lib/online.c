@@ -330,7 +330,8 @@ static int add_day(twofold_online *on, double y) {
   if (kink && lnew > -INFINITY) {
     double s0 = 0, s1 = 0, s2 = 0, ref = NAN;
     for (size_t i = 0; i < on->nc; i++) {
-      if (hw[i] == -INFINITY)
+      if (hw[i] == -INFINITY || !isfinite(on->cf[i].xm) ||
+          !isfinite(on->cf[i].xv))
         continue;
       double om = exp(hw[i] - lnew);
       if (isnan(ref))
@@ -341,8 +342,10 @@ static int add_day(twofold_online *on, double y) {
       s2 += om * (on->cf[i].xv + dx * dx);
     }
     double mu = s1 / s0, var = s2 / s0 - mu * mu;
-    nm = ref + mu;
-    nv = var > 1e-30 ? var : 1e-30;
+    if (s0 > 0) {
+      nm = ref + mu;
+      nv = var > 1e-30 ? var : 1e-30;
+    }
   }
   double zm = -INFINITY, zs = 0;
   for (size_t i = 0; i < on->nc; i++) {
@@ -350,7 +353,10 @@ static int add_day(twofold_online *on, double y) {
     const double *S = s == 0 ? lp->lS0 : lp->lS;
     double b = on->cb[i], v = on->cv[i];
     double lpn = seg_lp(on, i, s, t, &b, &v);
-    on->cw[i] += S[l] - S[l - 1] + lpn - on->clp[i];
+    double inc = lpn - on->clp[i]; /* NaN when both are -inf */
+    on->cw[i] = on->cw[i] == -INFINITY || !(inc > -INFINITY)
+                    ? -INFINITY
+                    : on->cw[i] + S[l] - S[l - 1] + inc;
     on->clp[i] = lpn;
     on->cb[i] = b;
     on->cv[i] = v;

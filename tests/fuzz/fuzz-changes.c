@@ -223,9 +223,7 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size) {
     FUZZ_CHECK(memcmp(&ev, &(double){twofold_changes_log_evidence(ch)},
                       sizeof ev) == 0 || isnan(ev));
 
-#ifdef TWOFOLD_FUZZ_ONLINE
-  /* Online (built with -DTWOFOLD_FUZZ_ONLINE once the online filter is
-   * implemented): the first nhist days as history, the rest added one by
+  /* Online: the first nhist days as history, the rest added one by
    * one. */
   if (nhist > n)
     nhist = n;
@@ -251,10 +249,6 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size) {
     FUZZ_CHECK(twofold_online_errmsg(on) != NULL);
     twofold_online_free(on);
   }
-#else
-  (void)cand;
-  (void)nhist;
-#endif
 
 done:
   twofold_changes_free(ch);
