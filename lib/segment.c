@@ -324,7 +324,18 @@ direct:
 
 /* ---- segment marginals (METHODS B5) ----------------------------------- */
 
+/* A segment without a day of data has marginal likelihood 1 (and the
+ * prior level; NaN while the online filter has not yet scaled it). */
+static inline int no_data(const tf_cpdata *d, size_t s, size_t e) {
+  return d->cmiss[e + 1] - d->cmiss[s] == e - s + 1;
+}
+
 double tf_seg_level(const tf_cpdata *d, size_t s, size_t e, double *lvl) {
+  if (no_data(d, s, e)) {
+    if (lvl)
+      *lvl = d->beta > 0 ? d->alpha / d->beta : NAN;
+    return 0;
+  }
   double Y = tf_sumy(d, s, e), W = d->cw[e + 1] - d->cw[s];
   double ap = d->alpha + Y / d->phi, bp = d->beta + W / d->phi;
   if (lvl)
@@ -373,13 +384,30 @@ static double jump_f(const tf_cpdata *d, size_t s, size_t e, double c,
 
 double tf_seg_jump(const tf_cpdata *d, size_t s, size_t e, double *bio,
                    double *bvar, double *lvl) {
+  if (no_data(d, s, e)) {
+    *bio = d->rmean;
+    *bvar = d->rsd * d->rsd;
+    if (lvl)
+      *lvl = d->beta > 0 ? d->alpha / d->beta : NAN;
+    return 0;
+  }
   double c = 0.5 * ((double)s + (double)e);
   double Y = tf_sumy(d, s, e), S1 = tf_sumty(d, s, e) - c * Y;
   double b = isfinite(*bio) ? *bio : d->rmean;
   double f1, f2, lbp;
   double f = jump_f(d, s, e, c, Y, S1, b, &f1, &f2, &lbp);
+  if (!isfinite(f) && b != d->rmean) {
+    b = d->rmean;
+    f = jump_f(d, s, e, c, Y, S1, b, &f1, &f2, &lbp);
+  }
+  if (!isfinite(f) || !(f2 < 0))
+    goto impossible;
   for (int it = 0; it < 60; it++) {
     double step = -f1 / f2;
+    if (!isfinite(step))
+      goto impossible;
+    if (fabs(step) > 1) /* a trust region: at most 1 a day per step */
+      step = step > 0 ? 1 : -1;
     if (fabs(step) < 1e-9 * (1 + fabs(b))) {
       /* converged: take the Newton step without another evaluation; the
        * quadratic model puts the mode at b + step (error O(L step^2)) and
@@ -398,6 +426,8 @@ double tf_seg_jump(const tf_cpdata *d, size_t s, size_t e, double *bio,
       fn = jump_f(d, s, e, c, Y, S1, bn, &f1n, &f2n, &lbn);
       h++;
     }
+    if (!(fn >= f - 1e-12 * fabs(f)) || !(f2n < 0))
+      break; /* no ascent left (or the sums left double range): stay */
     b = bn;
     f = fn;
     f1 = f1n;
@@ -408,13 +438,27 @@ double tf_seg_jump(const tf_cpdata *d, size_t s, size_t e, double *bio,
   }
   /* f was evaluated at the final b: a last Newton step would change it by
    * O(step^2), below double precision here. */
-  double ap = d->alpha + Y / d->phi;
-  *bio = b;
-  *bvar = -1 / f2;
+  {
+    double ap = d->alpha + Y / d->phi;
+    double lp = f + d->lvl0 + tf_lgamma(ap) - d->lrsd - 0.5 * log(-f2);
+    /* the 1/sqrt(2 pi) of N(b) cancels the sqrt(2 pi) of the Laplace
+     * step */
+    if (isfinite(lp) && isfinite(b)) {
+      *bio = b;
+      *bvar = -1 / f2;
+      if (lvl)
+        *lvl = ap / exp(lbp);
+      return lp;
+    }
+  }
+impossible:
+  /* no finite mode (counts beyond the range the sums can hold): the
+   * segment is taken as impossible */
+  *bio = d->rmean;
+  *bvar = d->rsd * d->rsd;
   if (lvl)
-    *lvl = ap / exp(lbp);
-  return f + d->lvl0 + tf_lgamma(ap) - d->lrsd - 0.5 * log(-f2);
-  /* the 1/sqrt(2 pi) of N(b) cancels the sqrt(2 pi) of the Laplace step */
+    *lvl = NAN;
+  return -INFINITY;
 }
 
 /* ---- segment-length prior (METHODS A1) -------------------------------- */
