@@ -806,6 +806,12 @@ TWOFOLD_API int twofold_changes_map_segment(const twofold_changes *ch,
                                             double *rate_lo, double *rate_hi,
                                             double *level);
 
+/* Free the memory kept only for twofold_changes_sample (the candidate
+ * segments of the recursions: a few MB for a two-year series), for callers
+ * that hold many posteriors at once.  Every other getter keeps working;
+ * twofold_changes_sample then gives TWOFOLD_EINVAL until the next run. */
+TWOFOLD_API int twofold_changes_shrink(twofold_changes *ch);
+
 /* Draw `draws` segmentations from the posterior (exact sampling from the
  * recursions; KINK with a grid: on the level grid), seeded by seed (same seed, same
  * draws).  change (draws x n, row-major, may be NULL) gets 1 where day i

@@ -405,6 +405,7 @@ static void changes_clear(twofold_changes *ch) {
   ch->mapb = ch->mapbsd = ch->maplvl = NULL;
   ch->kink = NULL;
   ch->ncache = ch->capcache = 0;
+  ch->shrunk = 0;
   ch->ok = 0;
   ch->n = 0;
   ch->nmap = 0;
@@ -1095,10 +1096,25 @@ int twofold_changes_map_segment(const twofold_changes *ch, size_t k,
   return 0;
 }
 
+int twofold_changes_shrink(twofold_changes *ch) {
+  NEED_RUN(ch);
+  free(ch->clogP);
+  free(ch->cb);
+  free(ch->cv);
+  ch->clogP = ch->cb = ch->cv = NULL;
+  ch->ncache = ch->capcache = 0;
+  tf_kink_free(ch->kink);
+  ch->kink = NULL;
+  ch->shrunk = 1;
+  return 0;
+}
+
 int twofold_changes_sample(const twofold_changes *ch, uint64_t seed,
                            size_t draws, unsigned char *change, double *rate,
                            size_t *count) {
   NEED_RUN(ch);
+  if (ch->shrunk)
+    return TWOFOLD_EINVAL;
   size_t n = ch->n;
   if (draws > 0 && n > SIZE_MAX / draws)
     return TWOFOLD_ETOOLARGE;

@@ -172,6 +172,7 @@ struct twofold_changes {
   size_t ncleaned;
   /* KINK */
   struct tf_kink *kink;
+  int shrunk;      /* twofold_changes_shrink: no sampling data kept */
 };
 
 int tf_kink_run(struct twofold_changes *ch);

@@ -575,6 +575,10 @@ static int fit_one(void *ctx, size_t i) {
   int st = bk_fit_run(f, jb->cpo, &jb->o->in, &jb->targets[i]);
   if (st == 0 && f->status == 0)
     st = latest_of(jb->o, f, &jb->L[i]);
+  /* every posterior is kept until the output: without what only sampling
+   * (done above) needs */
+  if (st == 0 && f->ch != NULL)
+    (void)twofold_changes_shrink(f->ch);
   return st;
 }
 
@@ -604,11 +608,10 @@ static int run(const options *o, char **files, size_t nfiles) {
     st = TF_EXIT_OUTPUT;
     goto done;
   }
-  job jb = {o, cpo, targets, fits, L};
-  if ((st = bk_parallel(ntargets, o->in.threads, fit_one, &jb)) != 0)
-    goto done;
-
-  /* Only now, with every region evaluated, open the output. */
+  /* The output opens before the regions are evaluated (a file is still
+   * written whole or not at all: tf_output commits it at the end); regions
+   * go in batches of a few per thread, evaluated, written and freed, so
+   * memory stays that of one batch however many regions there are. */
   if ((out = tf_output_open(o->output)) == NULL) {
     st = TF_EXIT_OUTPUT;
     goto done;
@@ -620,28 +623,36 @@ static int run(const options *o, char **files, size_t nfiles) {
     st = TF_EXIT_OUTPUT;
     goto done;
   }
-  for (size_t i = 0; i < ntargets && st == TF_EXIT_OK; i++) {
-    const bk_fit *f = &fits[i];
-    if (f->status != 0) {
-      char sbuf[32];
-      tf_cli_msg("%s: not evaluated (%s): %s",
-                 twofold_series_region(targets[i].s),
-                 tf_cli_status_name(f->status, sbuf, sizeof sbuf), f->msg);
-    }
-    for (int r = 0; r < NRULES && st == TF_EXIT_OK; r++) {
-      if (!o->rules[r])
-        continue;
-      verdict v;
-      evaluate(o, f, &L[i], r, &v);
-      if (v.result == RES_FLAGGED)
-        flagged = 1;
-      if (v.result != RES_FLAGGED && !o->all)
-        continue;
-      int rc = o->format == FORMAT_JSON
-                   ? write_json(w, f, &v)
-                   : write_text(tf_output_stream(out), o, f, &v);
-      if (rc != 0)
-        st = -1;
+  size_t batch = 16 * (size_t)(o->in.threads > 0 ? o->in.threads : 1);
+  for (size_t b0 = 0; b0 < ntargets && st == TF_EXIT_OK; b0 += batch) {
+    size_t nb = ntargets - b0 < batch ? ntargets - b0 : batch;
+    job jb = {o, cpo, targets + b0, fits + b0, L + b0};
+    if ((st = bk_parallel(nb, o->in.threads, fit_one, &jb)) != 0)
+      goto done;
+    for (size_t i = b0; i < b0 + nb && st == TF_EXIT_OK; i++) {
+      const bk_fit *f = &fits[i];
+      if (f->status != 0) {
+        char sbuf[32];
+        tf_cli_msg("%s: not evaluated (%s): %s",
+                   twofold_series_region(targets[i].s),
+                   tf_cli_status_name(f->status, sbuf, sizeof sbuf), f->msg);
+      }
+      for (int r = 0; r < NRULES && st == TF_EXIT_OK; r++) {
+        if (!o->rules[r])
+          continue;
+        verdict v;
+        evaluate(o, f, &L[i], r, &v);
+        if (v.result == RES_FLAGGED)
+          flagged = 1;
+        if (v.result != RES_FLAGGED && !o->all)
+          continue;
+        int rc = o->format == FORMAT_JSON
+                     ? write_json(w, f, &v)
+                     : write_text(tf_output_stream(out), o, f, &v);
+        if (rc != 0)
+          st = -1;
+      }
+      bk_fit_free(&fits[i]);
     }
   }
   if (st == TF_EXIT_OK && w != NULL && tf_writer_finish(w) != 0)

@@ -387,7 +387,12 @@ typedef struct job {
 
 static int fit_one(void *ctx, size_t i) {
   job *jb = ctx;
-  return bk_fit_run(&jb->fits[i], jb->cpo, jb->in, &jb->targets[i]);
+  int st = bk_fit_run(&jb->fits[i], jb->cpo, jb->in, &jb->targets[i]);
+  /* every posterior is kept until the output: without what only sampling
+   * needs */
+  if (st == 0 && jb->fits[i].ch != NULL)
+    (void)twofold_changes_shrink(jb->fits[i].ch);
+  return st;
 }
 
 static int run(const options *o, char **files, size_t nfiles) {
@@ -414,12 +419,10 @@ static int run(const options *o, char **files, size_t nfiles) {
     st = TF_EXIT_OUTPUT;
     goto done;
   }
-  job jb = {cpo, &o->in, targets, fits};
-  if ((st = bk_parallel(ntargets, o->in.threads, fit_one, &jb)) !=
-      TF_EXIT_OK)
-    goto done;
-
-  /* Only now, with every posterior computed, open the output. */
+  /* The output opens before the posteriors (a file is still written whole
+   * or not at all: tf_output commits it at the end); regions are analysed
+   * in batches of a few per thread, written, and freed, so memory stays
+   * that of one batch however many regions there are. */
   if ((out = tf_output_open(o->output)) == NULL) {
     st = TF_EXIT_OUTPUT;
     goto done;
@@ -433,11 +436,20 @@ static int run(const options *o, char **files, size_t nfiles) {
     st = TF_EXIT_OUTPUT;
     goto done;
   }
-  for (size_t i = 0; i < ntargets && st == TF_EXIT_OK; i++)
-    st = (o->daily ? write_daily(o, w, &fits[i])
-                   : write_changes(o, w, &fits[i])) == 0
-             ? TF_EXIT_OK
-             : -1;
+  size_t batch = 16 * (size_t)(o->in.threads > 0 ? o->in.threads : 1);
+  for (size_t b0 = 0; b0 < ntargets && st == TF_EXIT_OK; b0 += batch) {
+    size_t nb = ntargets - b0 < batch ? ntargets - b0 : batch;
+    job jb = {cpo, &o->in, targets + b0, fits + b0};
+    if ((st = bk_parallel(nb, o->in.threads, fit_one, &jb)) != TF_EXIT_OK)
+      goto done;
+    for (size_t i = b0; i < b0 + nb && st == TF_EXIT_OK; i++) {
+      st = (o->daily ? write_daily(o, w, &fits[i])
+                     : write_changes(o, w, &fits[i])) == 0
+               ? TF_EXIT_OK
+               : -1;
+      bk_fit_free(&fits[i]);
+    }
+  }
   if (st == TF_EXIT_OK && tf_writer_finish(w) != 0)
     st = -1;
   if (st == -1) {
