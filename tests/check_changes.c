@@ -966,6 +966,25 @@ START_TEST(errors_and_null) {
   ck_assert_int_eq(twofold_changes_growth(ch, NULL, NULL, NULL), 0);
   ck_assert_int_eq(twofold_changes_doubling(ch, NULL, NULL, NULL, NULL), 0);
   ck_assert_int_eq(twofold_changes_sample(ch, 1, 2, NULL, NULL, NULL), 0);
+  /* shrink: the getters keep their values, sampling is refused */
+  {
+    size_t nn = twofold_changes_length(ch);
+    double *p1 = malloc(nn * sizeof *p1), *p2 = malloc(nn * sizeof *p2);
+    ck_assert(p1 && p2);
+    ck_assert_int_eq(twofold_changes_p_change(ch, p1), 0);
+    double ev = twofold_changes_log_evidence(ch);
+    size_t km = twofold_changes_map_count(ch);
+    ck_assert_int_eq(twofold_changes_shrink(ch), 0);
+    ck_assert_int_eq(twofold_changes_p_change(ch, p2), 0);
+    ck_assert(memcmp(p1, p2, nn * sizeof *p1) == 0);
+    ck_assert(twofold_changes_log_evidence(ch) == ev);
+    ck_assert_uint_eq(twofold_changes_map_count(ch), km);
+    ck_assert_int_eq(twofold_changes_sample(ch, 1, 2, NULL, NULL, NULL),
+                     TWOFOLD_EINVAL);
+    ck_assert_int_eq(twofold_changes_shrink(NULL), TWOFOLD_EINVAL);
+    free(p1);
+    free(p2);
+  }
   twofold_changes_free(ch);
   twofold_cp_options_free(o);
 }
