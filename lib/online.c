@@ -127,6 +127,29 @@ static double seg_lp(twofold_online *on, size_t i, size_t s, size_t e,
   return tf_seg_jump(&on->d, s, e, b, v, NULL);
 }
 
+/* Candidate i moved to slot out (out <= i), weight included. */
+static void move_candidate(twofold_online *on, size_t out, size_t i) {
+  on->cs[out] = on->cs[i];
+  on->cw[out] = on->cw[i];
+  on->clp[out] = on->clp[i];
+  on->cb[out] = on->cb[i];
+  on->cv[out] = on->cv[i];
+  if (on->cf) {
+    on->cmm[out] = on->cmm[i];
+    on->cmv[out] = on->cmv[i];
+    on->cf[out] = on->cf[i];
+  }
+}
+
+/* The candidates' log weights normalised (exact up to rounding). */
+static void renormalise(twofold_online *on) {
+  double lz = -INFINITY;
+  for (size_t i = 0; i < on->nc; i++)
+    lz = tf_lse(lz, on->cw[i]);
+  for (size_t i = 0; i < on->nc; i++)
+    on->cw[i] -= lz;
+}
+
 /* Stratified optimal resampling of the candidates down to m (METHODS A4).
  * Weights are normalised (linear scale in sortbuf). */
 static void sor(twofold_online *on, size_t m) {
@@ -182,26 +205,13 @@ static void sor(twofold_online *on, size_t m) {
       }
     }
     if (keep) {
-      on->cs[out] = on->cs[i];
+      move_candidate(on, out, i);
       on->cw[out] = log(nw);
-      on->clp[out] = on->clp[i];
-      on->cb[out] = on->cb[i];
-      on->cv[out] = on->cv[i];
-      if (on->cf) {
-        on->cmm[out] = on->cmm[i];
-        on->cmv[out] = on->cmv[i];
-        on->cf[out] = on->cf[i];
-      }
       out++;
     }
   }
   on->nc = out;
-  /* renormalise (exact up to rounding) */
-  double lz = -INFINITY;
-  for (size_t i = 0; i < out; i++)
-    lz = tf_lse(lz, on->cw[i]);
-  for (size_t i = 0; i < out; i++)
-    on->cw[i] -= lz;
+  renormalise(on);
 }
 
 /* A sum of exponentials kept as e^m * s, m the largest exponent so far:
@@ -246,25 +256,12 @@ static void keep_largest(twofold_online *on, size_t m) {
       ties--;
     }
     if (keep) {
-      on->cs[out] = on->cs[i];
-      on->cw[out] = on->cw[i];
-      on->clp[out] = on->clp[i];
-      on->cb[out] = on->cb[i];
-      on->cv[out] = on->cv[i];
-      if (on->cf) {
-        on->cmm[out] = on->cmm[i];
-        on->cmv[out] = on->cmv[i];
-        on->cf[out] = on->cf[i];
-      }
+      move_candidate(on, out, i);
       out++;
     }
   }
   on->nc = out;
-  double lz = -INFINITY;
-  for (size_t i = 0; i < out; i++)
-    lz = tf_lse(lz, on->cw[i]);
-  for (size_t i = 0; i < out; i++)
-    on->cw[i] -= lz;
+  renormalise(on);
 }
 
 static int add_day(twofold_online *on, double y) {
