@@ -104,9 +104,7 @@ enum {
       {"region-column", required_argument, NULL, TF_OPT_REGION_COLUMN},      \
       {"date-column", required_argument, NULL, TF_OPT_DATE_COLUMN},          \
       {"region", required_argument, NULL, 'r'},                              \
-  {                                                                          \
-    "no-total", no_argument, NULL, TF_OPT_NO_TOTAL                           \
-  }
+      {"no-total", no_argument, NULL, TF_OPT_NO_TOTAL}
 #define TF_INPUT_SHORT_OPTIONS "c:r:"
 
 /* Set the defaults (regions: room for nargs names).  0, or TF_EXIT_OUTPUT
