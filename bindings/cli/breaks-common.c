@@ -277,15 +277,8 @@ static int resolve_column(const bk_input *in, const twofold_series *s,
                           bk_target *t) {
   t->s = s;
   t->col = 0;
-  if (in->io.count != NULL) {
-    int k = twofold_series_column_index(s, in->io.count);
-    if (k < 0) {
-      tf_cli_msg("region '%s' has no column '%s'", twofold_series_region(s),
-                 in->io.count);
-      return TF_EXIT_DATA;
-    }
-    t->col = (size_t)k;
-  }
+  if (in->io.count != NULL)
+    return tf_cli_series_column(s, in->io.count, &t->col);
   return TF_EXIT_OK;
 }
 

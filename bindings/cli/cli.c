@@ -195,6 +195,18 @@ int tf_cli_input_option(int c, const char *arg, tf_cli_input *in) {
   }
 }
 
+int tf_cli_series_column(const twofold_series *s, const char *name,
+                         size_t *col) {
+  int k = twofold_series_column_index(s, name);
+  if (k < 0) {
+    tf_cli_msg("region '%s' has no column '%s'", twofold_series_region(s),
+               name);
+    return TF_EXIT_DATA;
+  }
+  *col = (size_t)k;
+  return TF_EXIT_OK;
+}
+
 void tf_cli_input_help_regions(FILE *f, const char *label) {
   fprintf(f,
           "  -r, --region=NAME          only this region (repeatable; %s "

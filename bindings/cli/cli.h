@@ -91,12 +91,8 @@ typedef struct tf_cli_input {
 
 /* Option codes of the shared long options without a short form (above
  * any command's own codes). */
-enum {
-  TF_OPT_LAYOUT = 400,
-  TF_OPT_REGION_COLUMN,
-  TF_OPT_DATE_COLUMN,
-  TF_OPT_NO_TOTAL
-};
+enum { TF_OPT_LAYOUT = 400, TF_OPT_REGION_COLUMN, TF_OPT_DATE_COLUMN,
+       TF_OPT_NO_TOTAL };
 
 #define TF_INPUT_LONG_OPTIONS                                                \
   {"count", required_argument, NULL, 'c'},                                   \
@@ -117,6 +113,11 @@ void tf_cli_input_free(tf_cli_input *in);
  * message naming the option and the value (an empty name, which no input
  * can hold, or an unknown layout). */
 int tf_cli_input_option(int c, const char *arg, tf_cli_input *in);
+
+/* The index of column name in s (*col), or TF_EXIT_DATA after the
+ * message "region 'R' has no column 'NAME'". */
+int tf_cli_series_column(const twofold_series *s, const char *name,
+                         size_t *col);
 
 /* Help lines of the shared options: -r and --no-total (label names the
  * sum), and the "Input:" block. */

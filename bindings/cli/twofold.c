@@ -285,25 +285,15 @@ static int resolve_columns(const options *o, const twofold_series *s,
   t->col = 0;
   t->ocol = -1;
   t->pre = NULL;
-  if (o->in.count != NULL) {
-    int k = twofold_series_column_index(s, o->in.count);
-    if (k < 0) {
-      tf_cli_msg("region '%s' has no column '%s'", twofold_series_region(s),
-                 o->in.count);
-      return TF_EXIT_DATA;
-    }
-    t->col = (size_t)k;
+  int st = TF_EXIT_OK;
+  if (o->in.count != NULL)
+    st = tf_cli_series_column(s, o->in.count, &t->col);
+  if (st == TF_EXIT_OK && o->offset != NULL) {
+    size_t k;
+    if ((st = tf_cli_series_column(s, o->offset, &k)) == TF_EXIT_OK)
+      t->ocol = (int)k;
   }
-  if (o->offset != NULL) {
-    int k = twofold_series_column_index(s, o->offset);
-    if (k < 0) {
-      tf_cli_msg("region '%s' has no column '%s'", twofold_series_region(s),
-                 o->offset);
-      return TF_EXIT_DATA;
-    }
-    t->ocol = k;
-  }
-  return TF_EXIT_OK;
+  return st;
 }
 
 /* Build the list of targets (tf_cli_select_series); *total receives the
@@ -314,8 +304,9 @@ static int select_targets(const options *o, const twofold_set *set,
   size_t m = 0;
   *out = NULL;
   *n = 0;
-  int st = tf_cli_select_series(set, TOTAL_LABEL, o->in.regions,
-                                o->in.nregions, o->in.no_total, total, &list, &m);
+  int st =
+      tf_cli_select_series(set, TOTAL_LABEL, o->in.regions, o->in.nregions,
+                           o->in.no_total, total, &list, &m);
   if (st != TF_EXIT_OK)
     return st;
   target *t = calloc(m ? m : 1, sizeof *t);
