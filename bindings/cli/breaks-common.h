@@ -1,8 +1,8 @@
 /* SPDX-License-Identifier: GPL-3.0-or-later */
 /*
  * breaks-common.h - what twofold-breaks and twofold-alert share: the
- * changepoint model options (kind, priors, dispersion), the input options
- * (layout, columns, regions, --as-of), choosing the series to analyse and
+ * changepoint model options (kind, priors, dispersion), --as-of and
+ * --threads beside the input options of cli.h, choosing the series to analyse and
  * running the changepoint posterior of libtwofold(3) on each.
  *
  * The defaults of the model options are never kept here: they are read
