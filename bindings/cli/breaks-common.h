@@ -2,8 +2,8 @@
 /*
  * breaks-common.h - what twofold-breaks and twofold-alert share: the
  * changepoint model options (kind, priors, dispersion), --as-of and
- * --threads beside the input options of cli.h, choosing the series to analyse and
- * running the changepoint posterior of libtwofold(3) on each.
+ * --threads beside the input options of cli.h, choosing the series to
+ * analyse and running the changepoint posterior of libtwofold(3) on each.
  *
  * The defaults of the model options are never kept here: they are read
  * from a fresh twofold_cp_options object, so the help text and the man
