@@ -11,20 +11,11 @@
 
 int bk_input_init(bk_input *in, int nargs) {
   memset(in, 0, sizeof *in);
-  in->layout = TWOFOLD_LAYOUT_AUTO;
   in->threads = bk_default_threads();
-  in->regions = calloc(nargs > 0 ? (size_t)nargs : 1, sizeof *in->regions);
-  if (in->regions == NULL) {
-    tf_cli_msg("out of memory");
-    return TF_EXIT_OUTPUT;
-  }
-  return 0;
+  return tf_cli_input_init(&in->io, nargs);
 }
 
-void bk_input_free(bk_input *in) {
-  free(in->regions);
-  in->regions = NULL;
-}
+void bk_input_free(bk_input *in) { tf_cli_input_free(&in->io); }
 
 /* A finite number in [min, max]. */
 static int parse_closed(const char *opt, const char *arg, double min,
@@ -109,26 +100,6 @@ int bk_parse_option(int c, const char *arg, bk_model *m, bk_input *in) {
     m->clean = c == BK_OPT_CLEAN;
     m->have_clean = 1;
     return 0;
-  case 'c':
-    in->count = arg;
-    return 0;
-  case BK_OPT_LAYOUT:
-    if ((in->layout = twofold_layout_from_string(arg)) < 0)
-      return tf_cli_usage_error("--layout: '%s' is not auto, long or wide",
-                                arg);
-    return 0;
-  case BK_OPT_REGION_COLUMN:
-    in->region_column = arg;
-    return 0;
-  case BK_OPT_DATE_COLUMN:
-    in->date_column = arg;
-    return 0;
-  case 'r':
-    in->regions[in->nregions++] = arg;
-    return 0;
-  case BK_OPT_NO_TOTAL:
-    in->no_total = 1;
-    return 0;
   case 'a':
     if ((st = tf_cli_parse_date("--as-of", arg, &in->as_of)))
       return st;
@@ -140,7 +111,7 @@ int bk_parse_option(int c, const char *arg, bk_model *m, bk_input *in) {
     in->threads = (int)v;
     return 0;
   default:
-    return -1;
+    return tf_cli_input_option(c, arg, &in->io);
   }
 }
 
@@ -209,22 +180,14 @@ int bk_print_model_help(FILE *f) {
 void bk_print_input_help(FILE *f) {
   fputs("Days and regions:\n"
         "  -a, --as-of=DATE           use the counts up to DATE (default: "
-        "all)\n"
-        "  -r, --region=NAME          only this region (repeatable; " BK_TOTAL_LABEL
-        " names\n"
-        "                             the sum)\n"
-        "      --no-total             leave out the sum over regions\n"
-        "      --threads=N            regions analysed at once (default: "
-        "processors\n"
-        "                             online, at most 4)\n"
-        "Input:\n"
-        "  -c, --count=COLUMN         count column to use (default: the "
-        "first)\n"
-        "      --layout=LAYOUT        auto, long or wide (default auto)\n"
-        "      --region-column=NAME   region column of long files (default "
-        "region)\n"
-        "      --date-column=NAME     date column (default date)\n",
+        "all)\n",
         f);
+  tf_cli_input_help_regions(f, BK_TOTAL_LABEL);
+  fputs("      --threads=N            regions analysed at once (default: "
+        "processors\n"
+        "                             online, at most 4)\n",
+        f);
+  tf_cli_input_help(f);
 }
 
 /* Report a setter's failure. */
@@ -302,21 +265,9 @@ int bk_read(const bk_input *in, char **files, size_t nfiles,
     nfiles = 1;
   }
   twofold_read_options *ro = NULL;
-  int rc = twofold_read_options_new(&ro);
-  if (rc == 0)
-    rc = twofold_read_options_set_layout(ro, in->layout);
-  if (rc == 0 && in->region_column)
-    rc = twofold_read_options_set_region_column(ro, in->region_column);
-  if (rc == 0 && in->date_column)
-    rc = twofold_read_options_set_date_column(ro, in->date_column);
-  if (rc != 0) {
-    twofold_read_options_free(ro);
-    if (rc == TWOFOLD_ENOMEM) {
-      tf_cli_msg("out of memory");
-      return TF_EXIT_OUTPUT;
-    }
-    return tf_cli_usage_error("%s", twofold_strerror(rc));
-  }
+  int rc = tf_cli_input_read_options(&in->io, &ro);
+  if (rc != 0)
+    return rc;
   int st = tf_cli_read_inputs(files, nfiles, ro, out);
   twofold_read_options_free(ro);
   return st;
@@ -326,15 +277,8 @@ static int resolve_column(const bk_input *in, const twofold_series *s,
                           bk_target *t) {
   t->s = s;
   t->col = 0;
-  if (in->count != NULL) {
-    int k = twofold_series_column_index(s, in->count);
-    if (k < 0) {
-      tf_cli_msg("region '%s' has no column '%s'", twofold_series_region(s),
-                 in->count);
-      return TF_EXIT_DATA;
-    }
-    t->col = (size_t)k;
-  }
+  if (in->io.count != NULL)
+    return tf_cli_series_column(s, in->io.count, &t->col);
   return TF_EXIT_OK;
 }
 
@@ -344,8 +288,9 @@ int bk_select_targets(const bk_input *in, const twofold_set *set,
   size_t m = 0;
   *out = NULL;
   *n = 0;
-  int st = tf_cli_select_series(set, BK_TOTAL_LABEL, in->regions,
-                                in->nregions, in->no_total, total, &list, &m);
+  int st =
+      tf_cli_select_series(set, BK_TOTAL_LABEL, in->io.regions,
+                           in->io.nregions, in->io.no_total, total, &list, &m);
   if (st != TF_EXIT_OK)
     return st;
   bk_target *t = calloc(m ? m : 1, sizeof *t);

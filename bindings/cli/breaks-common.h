@@ -1,9 +1,9 @@
 /* SPDX-License-Identifier: GPL-3.0-or-later */
 /*
  * breaks-common.h - what twofold-breaks and twofold-alert share: the
- * changepoint model options (kind, priors, dispersion), the input options
- * (layout, columns, regions, --as-of), choosing the series to analyse and
- * running the changepoint posterior of libtwofold(3) on each.
+ * changepoint model options (kind, priors, dispersion), --as-of and
+ * --threads beside the input options of cli.h, choosing the series to
+ * analyse and running the changepoint posterior of libtwofold(3) on each.
  *
  * The defaults of the model options are never kept here: they are read
  * from a fresh twofold_cp_options object, so the help text and the man
@@ -44,12 +44,7 @@ typedef struct bk_model {
 
 /* Input and selection options. */
 typedef struct bk_input {
-  const char *count;
-  int layout;
-  const char *region_column, *date_column;
-  const char **regions; /* room for argc names */
-  size_t nregions;
-  int no_total;
+  tf_cli_input io; /* columns, layout, regions (cli.h) */
   int have_as_of;
   int32_t as_of;
   int threads; /* regions analysed at once */
@@ -70,12 +65,6 @@ enum {
   BK_OPT_LEVEL,
   BK_OPT_CLEAN,
   BK_OPT_NO_CLEAN,
-  BK_OPT_COUNT,
-  BK_OPT_LAYOUT,
-  BK_OPT_REGION_COLUMN,
-  BK_OPT_DATE_COLUMN,
-  BK_OPT_REGION,
-  BK_OPT_NO_TOTAL,
   BK_OPT_AS_OF,
   BK_OPT_THREADS,
   BK_OPT_LAST_
@@ -96,18 +85,13 @@ enum {
       {"level", required_argument, NULL, 'l'},                               \
       {"clean", no_argument, NULL, BK_OPT_CLEAN},                            \
       {"no-clean", no_argument, NULL, BK_OPT_NO_CLEAN},                      \
-      {"count", required_argument, NULL, 'c'},                               \
-      {"layout", required_argument, NULL, BK_OPT_LAYOUT},                    \
-      {"region-column", required_argument, NULL, BK_OPT_REGION_COLUMN},      \
-      {"date-column", required_argument, NULL, BK_OPT_DATE_COLUMN},          \
-      {"region", required_argument, NULL, 'r'},                              \
-      {"no-total", no_argument, NULL, BK_OPT_NO_TOTAL},                      \
+      TF_INPUT_LONG_OPTIONS,                                                 \
       {"threads", required_argument, NULL, BK_OPT_THREADS},                  \
   {                                                                          \
     "as-of", required_argument, NULL, 'a'                                    \
   }
 /* Their short forms for getopt_long's option string. */
-#define BK_SHORT_OPTIONS "k:l:c:r:a:"
+#define BK_SHORT_OPTIONS "k:l:" TF_INPUT_SHORT_OPTIONS "a:"
 
 /* Set the defaults of in (regions: room for nargs names).  0 or
  * TF_EXIT_OUTPUT (out of memory, message printed). */

@@ -141,6 +141,115 @@ static int read_one(const char *path, const twofold_read_options *ro,
   return rc == TWOFOLD_ENOMEM ? TF_EXIT_OUTPUT : TF_EXIT_INPUT;
 }
 
+/* ------------------------------------------------------------------ */
+/* The shared input options                                            */
+/* ------------------------------------------------------------------ */
+
+int tf_cli_input_init(tf_cli_input *in, int nargs) {
+  memset(in, 0, sizeof *in);
+  in->layout = TWOFOLD_LAYOUT_AUTO;
+  in->regions = calloc(nargs > 0 ? (size_t)nargs : 1, sizeof *in->regions);
+  if (in->regions == NULL) {
+    tf_cli_msg("out of memory");
+    return TF_EXIT_OUTPUT;
+  }
+  return 0;
+}
+
+void tf_cli_input_free(tf_cli_input *in) {
+  free(in->regions);
+  in->regions = NULL;
+}
+
+/* A column or region name: the reader refuses empty column and region
+ * names in a file, so an empty one here could never match. */
+static int parse_name(const char *opt, const char *what, const char *arg,
+                      const char **out) {
+  if (arg[0] == '\0')
+    return tf_cli_usage_error("%s: '%s' is not a %s name", opt, arg, what);
+  *out = arg;
+  return 0;
+}
+
+int tf_cli_input_option(int c, const char *arg, tf_cli_input *in) {
+  switch (c) {
+  case 'c':
+    return parse_name("--count", "column", arg, &in->count);
+  case TF_OPT_LAYOUT:
+    if ((in->layout = twofold_layout_from_string(arg)) < 0)
+      return tf_cli_usage_error("--layout: '%s' is not auto, long or wide",
+                                arg);
+    return 0;
+  case TF_OPT_REGION_COLUMN:
+    return parse_name("--region-column", "column", arg, &in->region_column);
+  case TF_OPT_DATE_COLUMN:
+    return parse_name("--date-column", "column", arg, &in->date_column);
+  case 'r':
+    return parse_name("--region", "region", arg,
+                      &in->regions[in->nregions++]);
+  case TF_OPT_NO_TOTAL:
+    in->no_total = 1;
+    return 0;
+  default:
+    return -1;
+  }
+}
+
+int tf_cli_series_column(const twofold_series *s, const char *name,
+                         size_t *col) {
+  int k = twofold_series_column_index(s, name);
+  if (k < 0) {
+    tf_cli_msg("region '%s' has no column '%s'", twofold_series_region(s),
+               name);
+    return TF_EXIT_DATA;
+  }
+  *col = (size_t)k;
+  return TF_EXIT_OK;
+}
+
+void tf_cli_input_help_regions(FILE *f, const char *label) {
+  fprintf(f,
+          "  -r, --region=NAME          only this region (repeatable; %s "
+          "names\n"
+          "                             the sum)\n"
+          "      --no-total             leave out the sum over regions\n",
+          label);
+}
+
+void tf_cli_input_help(FILE *f) {
+  fputs("Input:\n"
+        "  -c, --count=COLUMN         count column to use (default: the "
+        "first)\n"
+        "      --layout=LAYOUT        auto, long or wide (default auto)\n"
+        "      --region-column=NAME   region column of long files (default "
+        "region)\n"
+        "      --date-column=NAME     date column (default date)\n",
+        f);
+}
+
+int tf_cli_input_read_options(const tf_cli_input *in,
+                              twofold_read_options **out) {
+  twofold_read_options *ro = NULL;
+  *out = NULL;
+  int rc = twofold_read_options_new(&ro);
+  if (rc == 0)
+    rc = twofold_read_options_set_layout(ro, in->layout);
+  if (rc == 0 && in->region_column)
+    rc = twofold_read_options_set_region_column(ro, in->region_column);
+  if (rc == 0 && in->date_column)
+    rc = twofold_read_options_set_date_column(ro, in->date_column);
+  if (rc != 0) {
+    twofold_read_options_free(ro);
+    if (rc == TWOFOLD_ENOMEM) {
+      tf_cli_msg("out of memory");
+      return TF_EXIT_OUTPUT;
+    }
+    return tf_cli_usage_error("%s", twofold_strerror(rc));
+  }
+  *out = ro;
+  return 0;
+}
+
 int tf_cli_read_inputs(char *const *paths, size_t npaths,
                        const twofold_read_options *ro, twofold_set **out) {
   *out = NULL;

@@ -14,6 +14,7 @@
 
 #include "twofold.h"
 
+#include <getopt.h>
 #include <stddef.h>
 #include <stdint.h>
 #include <stdio.h>
@@ -74,6 +75,60 @@ int tf_cli_parse_date(const char *opt, const char *arg, int32_t *day);
 /* ------------------------------------------------------------------ */
 /* Input                                                               */
 /* ------------------------------------------------------------------ */
+
+/* The input options every command takes: the count column, the layout,
+ * the region and date column names, the regions to report and
+ * --no-total.  Each command adds TF_INPUT_LONG_OPTIONS to its getopt_long
+ * table and TF_INPUT_SHORT_OPTIONS to its option string. */
+typedef struct tf_cli_input {
+  const char *count;                      /* NULL: the first count column */
+  int layout;                             /* TWOFOLD_LAYOUT_...          */
+  const char *region_column, *date_column; /* NULL: the library's default */
+  const char **regions;                   /* room for argc names         */
+  size_t nregions;
+  int no_total;
+} tf_cli_input;
+
+/* Option codes of the shared long options without a short form (above
+ * any command's own codes). */
+enum { TF_OPT_LAYOUT = 400, TF_OPT_REGION_COLUMN, TF_OPT_DATE_COLUMN,
+       TF_OPT_NO_TOTAL };
+
+#define TF_INPUT_LONG_OPTIONS                                                \
+  {"count", required_argument, NULL, 'c'},                                   \
+      {"layout", required_argument, NULL, TF_OPT_LAYOUT},                    \
+      {"region-column", required_argument, NULL, TF_OPT_REGION_COLUMN},      \
+      {"date-column", required_argument, NULL, TF_OPT_DATE_COLUMN},          \
+      {"region", required_argument, NULL, 'r'},                              \
+      {"no-total", no_argument, NULL, TF_OPT_NO_TOTAL}
+#define TF_INPUT_SHORT_OPTIONS "c:r:"
+
+/* Set the defaults (regions: room for nargs names).  0, or TF_EXIT_OUTPUT
+ * after a message (out of memory). */
+int tf_cli_input_init(tf_cli_input *in, int nargs);
+void tf_cli_input_free(tf_cli_input *in);
+
+/* Handle option c with argument arg if it is a shared input option:
+ * returns -1 when it is not one, 0 when handled, or TF_EXIT_USAGE after a
+ * message naming the option and the value (an empty name, which no input
+ * can hold, or an unknown layout). */
+int tf_cli_input_option(int c, const char *arg, tf_cli_input *in);
+
+/* The index of column name in s (*col), or TF_EXIT_DATA after the
+ * message "region 'R' has no column 'NAME'". */
+int tf_cli_series_column(const twofold_series *s, const char *name,
+                         size_t *col);
+
+/* Help lines of the shared options: -r and --no-total (label names the
+ * sum), and the "Input:" block. */
+void tf_cli_input_help_regions(FILE *f, const char *label);
+void tf_cli_input_help(FILE *f);
+
+/* New reader options from in (the caller frees them).  0, TF_EXIT_USAGE
+ * (a value the library refuses; its message is printed) or
+ * TF_EXIT_OUTPUT (out of memory, message printed). */
+int tf_cli_input_read_options(const tf_cli_input *in,
+                              twofold_read_options **out);
 
 /* Read every path (at least one; "-" is standard input, at most once)
  * with the reader options and merge the regions into one new set, which

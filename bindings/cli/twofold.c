@@ -47,13 +47,7 @@ typedef struct options {
   int have_as_of;
   int32_t as_of;
   int every_day;
-  const char **regions;
-  size_t nregions;
-  int no_total;
-  const char *count;
-  int layout;
-  const char *region_column;
-  const char *date_column;
+  tf_cli_input in; /* columns, layout, regions (cli.h) */
   const char *svg; /* --svg FILE: chart.c */
   int have_gi;
   double gi_mean, gi_sd;
@@ -92,19 +86,17 @@ static void usage(FILE *f) {
 "Days and regions:\n"
 "  -a, --as-of=DATE           windows end on DATE (default: each region's\n"
 "                             last day with a count)\n"
-"  -e, --every-day            a row for every day, not only the last\n"
-"  -r, --region=NAME          only this region (repeatable; " TOTAL_LABEL " names\n"
-"                             the sum)\n"
-"      --no-total             leave out the sum over regions\n"
+"  -e, --every-day            a row for every day, not only the last\n",
+          PROGRAM, WINDOW_DEFAULT, TWOFOLD_MIN_EVENTS_DEFAULT);
+  tf_cli_input_help_regions(f, TOTAL_LABEL);
+  fputs(
 "      --threads=N            regions estimated at once (default: processors\n"
 "                             online, at most 4; the output is the same)\n"
 "  -s, --summary              describe the input instead: dates, days,\n"
-"                             missing days and total count per region\n"
-"Input:\n"
-"  -c, --count=COLUMN         count column to use (default: the first)\n"
-"      --layout=LAYOUT        auto, long or wide (default auto)\n"
-"      --region-column=NAME   region column of long files (default region)\n"
-"      --date-column=NAME     date column (default date)\n"
+"                             missing days and total count per region\n",
+        f);
+  tf_cli_input_help(f);
+  fputs(
 "Output:\n"
 "  -f, --format=FORMAT        table, tsv, csv or json (default table)\n"
 "  -o, --output=FILE          write FILE whole or not at all\n"
@@ -115,7 +107,7 @@ static void usage(FILE *f) {
 "Exit status: 0 success, 1 a requested region, column or date is absent,\n"
 "2 usage error, 3 unreadable or malformed input, 4 output error.\n"
 "Estimates depend on testing and reporting; see twofold(1).\n",
-          PROGRAM, WINDOW_DEFAULT, TWOFOLD_MIN_EVENTS_DEFAULT);
+        f);
 }
 
 enum {
@@ -124,10 +116,6 @@ enum {
   OPT_WEEKDAY,
   OPT_MIN_EVENTS,
   OPT_OFFSET,
-  OPT_NO_TOTAL,
-  OPT_LAYOUT,
-  OPT_REGION_COLUMN,
-  OPT_DATE_COLUMN,
   OPT_SVG,
   OPT_THREADS
 };
@@ -144,14 +132,9 @@ static const struct option long_options[] = {
     {"generation-interval", required_argument, NULL, 'g'},
     {"as-of", required_argument, NULL, 'a'},
     {"every-day", no_argument, NULL, 'e'},
-    {"region", required_argument, NULL, 'r'},
-    {"no-total", no_argument, NULL, OPT_NO_TOTAL},
     {"threads", required_argument, NULL, OPT_THREADS},
     {"summary", no_argument, NULL, 's'},
-    {"count", required_argument, NULL, 'c'},
-    {"layout", required_argument, NULL, OPT_LAYOUT},
-    {"region-column", required_argument, NULL, OPT_REGION_COLUMN},
-    {"date-column", required_argument, NULL, OPT_DATE_COLUMN},
+    TF_INPUT_LONG_OPTIONS,
     {"svg", required_argument, NULL, OPT_SVG},
     {"format", required_argument, NULL, 'f'},
     {"output", required_argument, NULL, 'o'},
@@ -169,18 +152,20 @@ static int parse_args(int argc, char **argv, options *o) {
   o->interval = TWOFOLD_INTERVAL_DEFAULT;
   o->weekday = 1;
   o->min_events = TWOFOLD_MIN_EVENTS_DEFAULT;
-  o->layout = TWOFOLD_LAYOUT_AUTO;
   o->threads = default_threads();
-  o->regions = calloc((size_t)argc, sizeof *o->regions);
-  if (o->regions == NULL) {
-    tf_cli_msg("out of memory");
+  if (tf_cli_input_init(&o->in, argc) != 0)
     return TF_EXIT_OUTPUT;
-  }
   int c, st;
   long v;
   opterr = 0;
-  while ((c = getopt_long(argc, argv, ":w:m:l:g:a:er:sc:f:o:hV", long_options,
+  while ((c = getopt_long(argc, argv, ":w:m:l:g:a:e" TF_INPUT_SHORT_OPTIONS "sf:o:hV", long_options,
                           NULL)) != -1) {
+    st = tf_cli_input_option(c, optarg, &o->in);
+    if (st >= 0) {
+      if (st > 0)
+        return st;
+      continue;
+    }
     switch (c) {
     case 'w':
       if ((st = tf_cli_parse_long("--window", optarg, 2, WINDOW_MAX, &v)))
@@ -231,12 +216,6 @@ static int parse_args(int argc, char **argv, options *o) {
     case 'e':
       o->every_day = 1;
       break;
-    case 'r':
-      o->regions[o->nregions++] = optarg;
-      break;
-    case OPT_NO_TOTAL:
-      o->no_total = 1;
-      break;
     case OPT_THREADS:
       if ((st = tf_cli_parse_long("--threads", optarg, 1, THREADS_MAX, &v)))
         return st;
@@ -244,20 +223,6 @@ static int parse_args(int argc, char **argv, options *o) {
       break;
     case 's':
       o->summary = 1;
-      break;
-    case 'c':
-      o->count = optarg;
-      break;
-    case OPT_LAYOUT:
-      if ((o->layout = twofold_layout_from_string(optarg)) < 0)
-        return tf_cli_usage_error("--layout: '%s' is not auto, long or wide",
-                                  optarg);
-      break;
-    case OPT_REGION_COLUMN:
-      o->region_column = optarg;
-      break;
-    case OPT_DATE_COLUMN:
-      o->date_column = optarg;
       break;
     case OPT_SVG:
       o->svg = optarg;
@@ -320,25 +285,15 @@ static int resolve_columns(const options *o, const twofold_series *s,
   t->col = 0;
   t->ocol = -1;
   t->pre = NULL;
-  if (o->count != NULL) {
-    int k = twofold_series_column_index(s, o->count);
-    if (k < 0) {
-      tf_cli_msg("region '%s' has no column '%s'", twofold_series_region(s),
-                 o->count);
-      return TF_EXIT_DATA;
-    }
-    t->col = (size_t)k;
+  int st = TF_EXIT_OK;
+  if (o->in.count != NULL)
+    st = tf_cli_series_column(s, o->in.count, &t->col);
+  if (st == TF_EXIT_OK && o->offset != NULL) {
+    size_t k;
+    if ((st = tf_cli_series_column(s, o->offset, &k)) == TF_EXIT_OK)
+      t->ocol = (int)k;
   }
-  if (o->offset != NULL) {
-    int k = twofold_series_column_index(s, o->offset);
-    if (k < 0) {
-      tf_cli_msg("region '%s' has no column '%s'", twofold_series_region(s),
-                 o->offset);
-      return TF_EXIT_DATA;
-    }
-    t->ocol = k;
-  }
-  return TF_EXIT_OK;
+  return st;
 }
 
 /* Build the list of targets (tf_cli_select_series); *total receives the
@@ -349,8 +304,9 @@ static int select_targets(const options *o, const twofold_set *set,
   size_t m = 0;
   *out = NULL;
   *n = 0;
-  int st = tf_cli_select_series(set, TOTAL_LABEL, o->regions, o->nregions,
-                                o->no_total, total, &list, &m);
+  int st =
+      tf_cli_select_series(set, TOTAL_LABEL, o->in.regions, o->in.nregions,
+                           o->in.no_total, total, &list, &m);
   if (st != TF_EXIT_OK)
     return st;
   target *t = calloc(m ? m : 1, sizeof *t);
@@ -824,8 +780,8 @@ static void early_region(void *arg, size_t index, const twofold_series *s) {
   t.col = 0;
   t.ocol = -1;
   t.pre = NULL;
-  if (o->count != NULL) {
-    int k = twofold_series_column_index(s, o->count);
+  if (o->in.count != NULL) {
+    int k = twofold_series_column_index(s, o->in.count);
     if (k < 0)
       return; /* the final pass says so */
     t.col = (size_t)k;
@@ -1139,17 +1095,6 @@ static int write_growth(const options *o, work *wk, int nw, tf_writer *w,
 /* main                                                                */
 /* ------------------------------------------------------------------ */
 
-static int make_read_options(const options *o, twofold_read_options **out) {
-  int rc = twofold_read_options_new(out);
-  if (rc == 0)
-    rc = twofold_read_options_set_layout(*out, o->layout);
-  if (rc == 0 && o->region_column)
-    rc = twofold_read_options_set_region_column(*out, o->region_column);
-  if (rc == 0 && o->date_column)
-    rc = twofold_read_options_set_date_column(*out, o->date_column);
-  return rc;
-}
-
 static int run(const options *o, char **files, size_t nfiles) {
   static char *stdin_only[] = {(char *)"-"};
   int stdin_seen = 0;
@@ -1175,16 +1120,13 @@ static int run(const options *o, char **files, size_t nfiles) {
   void *eargs[THREADS_MAX][2];
   memset(&ea, 0, sizeof ea);
 
-  if (make_read_options(o, &ro) != 0) {
-    tf_cli_msg("out of memory");
-    st = TF_EXIT_OUTPUT;
+  if ((st = tf_cli_input_read_options(&o->in, &ro)) != 0)
     goto done;
-  }
   /* The latest estimate of every region of one file: fit regions while
    * the file is read (see early_region), with the work spaces made now.
    * If they cannot be made, the work spaces are made after reading, as
    * without this, and any message comes at the same point. */
-  if (!o->summary && !o->every_day && o->nregions == 0 && nfiles == 1) {
+  if (!o->summary && !o->every_day && o->in.nregions == 0 && nfiles == 1) {
     nw = o->threads;
     wk = calloc((size_t)nw, sizeof *wk);
     int ok = wk != NULL;
@@ -1306,6 +1248,6 @@ int main(int argc, char **argv) {
   int st = parse_args(argc, argv, &o);
   if (st < 0)
     st = run(&o, argv + optind, (size_t)(argc - optind));
-  free(o.regions);
+  tf_cli_input_free(&o.in);
   return st;
 }
