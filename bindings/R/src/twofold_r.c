@@ -708,6 +708,168 @@ static SEXP tfr_changes(SEXP y, SEXP first_weekday, SEXP opts) {
   return out;
 }
 
+/* ---- online changepoint filter --------------------------------------- */
+
+/* A filter lives in an external pointer tagged "twofold_online" with a
+ * finalizer; the R object (class "twofold_online") refers to it, so
+ * adding days changes the filter in place.  A pointer restored from a
+ * saved workspace holds NULL and is rejected. */
+static void fin_online(SEXP p) {
+  twofold_online_free((twofold_online *)R_ExternalPtrAddr(p));
+  R_ClearExternalPtr(p);
+}
+
+static twofold_online *online_get(SEXP p) {
+  if (TYPEOF(p) != EXTPTRSXP || R_ExternalPtrTag(p) != Rf_install("twofold_online"))
+    return NULL;
+  return (twofold_online *)R_ExternalPtrAddr(p);
+}
+
+static SEXP online_invalid(void) {
+  return status_list(TWOFOLD_EINVAL,
+                     "not a live online filter (made by online_changes in "
+                     "this session)",
+                     0, 0);
+}
+
+/* A whole number in [lo, 2^53] from an R numeric scalar, or -1. */
+static double whole_arg(SEXP x, double lo) {
+  if ((TYPEOF(x) != REALSXP && TYPEOF(x) != INTSXP) || XLENGTH(x) != 1)
+    return -1;
+  double v = Rf_asReal(x);
+  if (ISNAN(v) || v < lo || v > 9007199254740992.0 || v != floor(v))
+    return -1;
+  return v;
+}
+
+static SEXP tfr_online_new(SEXP history, SEXP first_weekday,
+                           SEXP max_candidates, SEXP seed, SEXP opts) {
+  if (!Rf_isNull(history) && TYPEOF(history) != REALSXP)
+    return status_list(TWOFOLD_EINVAL, "counts must be numeric", 0, 0);
+  double mc = whole_arg(max_candidates, 0), sd = whole_arg(seed, 0);
+  if (mc < 0)
+    return status_list(TWOFOLD_EINVAL,
+                       "max_candidates must be a whole number", 0, 0);
+  if (sd < 0)
+    return status_list(TWOFOLD_EINVAL,
+                       "seed must be a whole number from 0 to 2^53", 0, 0);
+  SEXP hopts = PROTECT(holder(fin_cpopts));
+  SEXP p = PROTECT(R_MakeExternalPtr(NULL, Rf_install("twofold_online"),
+                                     R_NilValue));
+  R_RegisterCFinalizerEx(p, fin_online, TRUE);
+  twofold_cp_options *o = NULL;
+  int st = twofold_cp_options_new(&o);
+  if (st < 0) {
+    UNPROTECT(2);
+    return status_code(st);
+  }
+  R_SetExternalPtrAddr(hopts, o);
+  st = cp_options(opts, o);
+  if (st < 0) {
+    SEXP e = status_list(st, twofold_cp_options_errmsg(o), 0, 0);
+    UNPROTECT(2);
+    return e;
+  }
+  size_t n = Rf_isNull(history) ? 0 : (size_t)XLENGTH(history);
+  twofold_online *on = NULL;
+  st = twofold_online_new(o, n > 0 ? REAL(history) : NULL, n,
+                          Rf_asInteger(first_weekday), (size_t)mc,
+                          (uint64_t)sd, &on);
+  release(hopts, fin_cpopts);
+  if (st < 0) {
+    UNPROTECT(2);
+    /* twofold_online_new has no handle to carry a message */
+    return status_list(st,
+                       st == TWOFOLD_EINVAL
+                           ? "invalid online filter arguments "
+                             "(max_candidates must be at least 2)"
+                           : NULL,
+                       0, 0);
+  }
+  R_SetExternalPtrAddr(p, on);
+  UNPROTECT(2);
+  return p;
+}
+
+/* Add y[0..n-1] in order; stops at the first failing day (the days before
+ * it stay added) with the filter's message.  Returns the days held. */
+static SEXP tfr_online_add(SEXP p, SEXP y) {
+  twofold_online *on = online_get(p);
+  if (!on)
+    return online_invalid();
+  if (TYPEOF(y) != REALSXP)
+    return status_list(TWOFOLD_EINVAL, "counts must be numeric", 0, 0);
+  for (R_xlen_t i = 0; i < XLENGTH(y); i++) {
+    int st = twofold_online_add(on, REAL(y)[i]);
+    if (st < 0)
+      return status_list(st, twofold_online_errmsg(on), 0, 0);
+  }
+  return Rf_ScalarReal((double)twofold_online_days(on));
+}
+
+/* list(days, candidates, log_predictive) */
+static SEXP tfr_online_state(SEXP p) {
+  twofold_online *on = online_get(p);
+  if (!on)
+    return online_invalid();
+  const char *names[] = {"days", "candidates", "log_predictive", ""};
+  SEXP out = PROTECT(Rf_mkNamed(VECSXP, names));
+  SET_VECTOR_ELT(out, 0, Rf_ScalarReal((double)twofold_online_days(on)));
+  SET_VECTOR_ELT(out, 1,
+                 Rf_ScalarReal((double)twofold_online_candidates(on)));
+  double lp = twofold_online_log_predictive(on);
+  SET_VECTOR_ELT(out, 2, Rf_ScalarReal(ISNAN(lp) ? NA_REAL : lp));
+  UNPROTECT(1);
+  return out;
+}
+
+/* P(a new regime within the last k days) for each k of a vector. */
+static SEXP tfr_online_p_recent(SEXP p, SEXP k) {
+  twofold_online *on = online_get(p);
+  if (!on)
+    return online_invalid();
+  if (TYPEOF(k) != REALSXP)
+    return status_list(TWOFOLD_EINVAL, "k must be numeric", 0, 0);
+  R_xlen_t n = XLENGTH(k);
+  SEXP out = PROTECT(real_vec(n));
+  for (R_xlen_t i = 0; i < n; i++) {
+    double v = REAL(k)[i];
+    if (ISNAN(v) || v < 1 || v > 9007199254740992.0 || v != floor(v)) {
+      UNPROTECT(1);
+      return status_list(TWOFOLD_EINVAL,
+                         "k must be a whole number of days, at least 1", 0,
+                         0);
+    }
+    int st = twofold_online_p_recent(on, (size_t)v, REAL(out) + i);
+    if (st < 0) {
+      UNPROTECT(1);
+      return status_list(st, twofold_online_errmsg(on), 0, 0);
+    }
+  }
+  UNPROTECT(1);
+  return out;
+}
+
+/* c(mean, lo, hi) of today's growth rate. */
+static SEXP tfr_online_growth(SEXP p) {
+  twofold_online *on = online_get(p);
+  if (!on)
+    return online_invalid();
+  SEXP out = PROTECT(real_vec(3));
+  int st = twofold_online_growth(on, REAL(out), REAL(out) + 1,
+                                 REAL(out) + 2);
+  if (st < 0) {
+    UNPROTECT(1);
+    /* the growth getter leaves the filter's message unset */
+    return status_list(st,
+                       st == TWOFOLD_ENODATA ? "no day added yet"
+                                             : twofold_online_errmsg(on),
+                       0, 0);
+  }
+  UNPROTECT(1);
+  return out;
+}
+
 /* ---- registration ---------------------------------------------------- */
 
 static const R_CallMethodDef call_methods[] = {
@@ -720,6 +882,11 @@ static const R_CallMethodDef call_methods[] = {
     {"tfr_doubling", (DL_FUNC)&tfr_doubling, 3},
     {"tfr_reproduction", (DL_FUNC)&tfr_reproduction, 6},
     {"tfr_changes", (DL_FUNC)&tfr_changes, 3},
+    {"tfr_online_new", (DL_FUNC)&tfr_online_new, 5},
+    {"tfr_online_add", (DL_FUNC)&tfr_online_add, 2},
+    {"tfr_online_state", (DL_FUNC)&tfr_online_state, 1},
+    {"tfr_online_p_recent", (DL_FUNC)&tfr_online_p_recent, 2},
+    {"tfr_online_growth", (DL_FUNC)&tfr_online_growth, 1},
     {NULL, NULL, 0}};
 
 void R_init_twofold(DllInfo *dll);
