@@ -598,24 +598,36 @@ static int cp_options(SEXP opts, twofold_cp_options *o) {
   return 0;
 }
 
+/* A new options object owned by the holder hopts, set from the R list
+ * opts; NULL with *err the status to return. */
+static twofold_cp_options *new_cp_options(SEXP hopts, SEXP opts, SEXP *err) {
+  twofold_cp_options *o = NULL;
+  int st = twofold_cp_options_new(&o);
+  if (st < 0) {
+    *err = status_code(st);
+    return NULL;
+  }
+  R_SetExternalPtrAddr(hopts, o);
+  st = cp_options(opts, o);
+  if (st < 0) {
+    *err = status_list(st, twofold_cp_options_errmsg(o), 0, 0);
+    return NULL;
+  }
+  return o;
+}
+
 static SEXP tfr_changes(SEXP y, SEXP first_weekday, SEXP opts) {
   if (TYPEOF(y) != REALSXP)
     return status_list(TWOFOLD_EINVAL, "counts must be numeric", 0, 0);
   SEXP hopts = PROTECT(holder(fin_cpopts));
   SEXP hch = PROTECT(holder(fin_changes));
-  twofold_cp_options *o = NULL;
-  int st = twofold_cp_options_new(&o);
-  if (st < 0) {
+  SEXP err = R_NilValue;
+  twofold_cp_options *o = new_cp_options(hopts, opts, &err);
+  if (o == NULL) {
     UNPROTECT(2);
-    return status_code(st);
+    return err;
   }
-  R_SetExternalPtrAddr(hopts, o);
-  st = cp_options(opts, o);
-  if (st < 0) {
-    SEXP e = status_list(st, twofold_cp_options_errmsg(o), 0, 0);
-    UNPROTECT(2);
-    return e;
-  }
+  int st;
   twofold_changes *ch = NULL;
   st = twofold_changes_new(&ch);
   if (st < 0) {
@@ -757,19 +769,13 @@ static SEXP tfr_online_new(SEXP history, SEXP first_weekday,
   SEXP p = PROTECT(R_MakeExternalPtr(NULL, Rf_install("twofold_online"),
                                      R_NilValue));
   R_RegisterCFinalizerEx(p, fin_online, TRUE);
-  twofold_cp_options *o = NULL;
-  int st = twofold_cp_options_new(&o);
-  if (st < 0) {
+  SEXP err = R_NilValue;
+  twofold_cp_options *o = new_cp_options(hopts, opts, &err);
+  if (o == NULL) {
     UNPROTECT(2);
-    return status_code(st);
+    return err;
   }
-  R_SetExternalPtrAddr(hopts, o);
-  st = cp_options(opts, o);
-  if (st < 0) {
-    SEXP e = status_list(st, twofold_cp_options_errmsg(o), 0, 0);
-    UNPROTECT(2);
-    return e;
-  }
+  int st;
   size_t n = Rf_isNull(history) ? 0 : (size_t)XLENGTH(history);
   twofold_online *on = NULL;
   st = twofold_online_new(o, n > 0 ? REAL(history) : NULL, n,
