@@ -4,6 +4,7 @@
 
 #include <errno.h>
 #include <fcntl.h>
+#include <getopt.h>
 #include <limits.h>
 #include <math.h>
 #include <signal.h>
@@ -52,6 +53,32 @@ int tf_cli_print_version(void) {
     return TF_EXIT_OUTPUT;
   }
   return TF_EXIT_OK;
+}
+
+int tf_cli_other_option(int c, int (*usage)(FILE *), char *const *argv) {
+  int st;
+  switch (c) {
+  case 'h':
+    if ((st = usage(stdout)) != 0)
+      return st;
+    if (fflush(stdout) != 0 || ferror(stdout)) {
+      tf_cli_msg("cannot write to standard output");
+      return TF_EXIT_OUTPUT;
+    }
+    return TF_EXIT_OK;
+  case 'V':
+    return tf_cli_print_version();
+  case ':':
+    if (strncmp(argv[optind - 1], "--", 2) == 0)
+      return tf_cli_usage_error("option %s needs an argument",
+                                argv[optind - 1]);
+    return tf_cli_usage_error("option -%c needs an argument", optopt);
+  default:
+    if (strncmp(argv[optind - 1], "--", 2) == 0)
+      return tf_cli_usage_error("unknown or ambiguous option %s",
+                                argv[optind - 1]);
+    return tf_cli_usage_error("unknown option -%c", optopt);
+  }
 }
 
 /* ------------------------------------------------------------------ */
@@ -163,7 +190,7 @@ void tf_cli_input_free(tf_cli_input *in) {
 
 /* A column or region name: the reader refuses empty column and region
  * names in a file, so an empty one here could never match. */
-static int parse_name(const char *opt, const char *what, const char *arg,
+int tf_cli_parse_name(const char *opt, const char *what, const char *arg,
                       const char **out) {
   if (arg[0] == '\0')
     return tf_cli_usage_error("%s: '%s' is not a %s name", opt, arg, what);
@@ -174,18 +201,18 @@ static int parse_name(const char *opt, const char *what, const char *arg,
 int tf_cli_input_option(int c, const char *arg, tf_cli_input *in) {
   switch (c) {
   case 'c':
-    return parse_name("--count", "column", arg, &in->count);
+    return tf_cli_parse_name("--count", "column", arg, &in->count);
   case TF_OPT_LAYOUT:
     if ((in->layout = twofold_layout_from_string(arg)) < 0)
       return tf_cli_usage_error("--layout: '%s' is not auto, long or wide",
                                 arg);
     return 0;
   case TF_OPT_REGION_COLUMN:
-    return parse_name("--region-column", "column", arg, &in->region_column);
+    return tf_cli_parse_name("--region-column", "column", arg, &in->region_column);
   case TF_OPT_DATE_COLUMN:
-    return parse_name("--date-column", "column", arg, &in->date_column);
+    return tf_cli_parse_name("--date-column", "column", arg, &in->date_column);
   case 'r':
-    return parse_name("--region", "region", arg,
+    return tf_cli_parse_name("--region", "region", arg,
                       &in->regions[in->nregions++]);
   case TF_OPT_NO_TOTAL:
     in->no_total = 1;

@@ -54,6 +54,17 @@ int tf_cli_usage_error(const char *fmt, ...)
  * as --version prints it. */
 int tf_cli_print_version(void);
 
+/* The getopt results every command treats alike: 'h' (usage(stdout), which
+ * returns 0 or an exit status), 'V' (the version), ':' (an option without
+ * its argument) and anything else (an unknown or ambiguous option, named
+ * from argv and optind).  Returns the exit status. */
+int tf_cli_other_option(int c, int (*usage)(FILE *), char *const *argv);
+
+/* A column or region name from option opt: an empty one is a usage error
+ * (what: "column" or "region").  Returns 0 or TF_EXIT_USAGE. */
+int tf_cli_parse_name(const char *opt, const char *what, const char *arg,
+                      const char **out);
+
 /* ------------------------------------------------------------------ */
 /* Parsing option arguments                                            */
 /* ------------------------------------------------------------------ */

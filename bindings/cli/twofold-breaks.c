@@ -101,26 +101,8 @@ static int parse_args(int argc, char **argv, options *o) {
     case 'o':
       o->output = optarg;
       break;
-    case 'h':
-      if ((st = usage(stdout)) != 0)
-        return st;
-      if (fflush(stdout) != 0 || ferror(stdout)) {
-        tf_cli_msg("cannot write to standard output");
-        return TF_EXIT_OUTPUT;
-      }
-      return TF_EXIT_OK;
-    case 'V':
-      return tf_cli_print_version();
-    case ':':
-      if (strncmp(argv[optind - 1], "--", 2) == 0)
-        return tf_cli_usage_error("option %s needs an argument",
-                                  argv[optind - 1]);
-      return tf_cli_usage_error("option -%c needs an argument", optopt);
     default:
-      if (strncmp(argv[optind - 1], "--", 2) == 0)
-        return tf_cli_usage_error("unknown or ambiguous option %s",
-                                  argv[optind - 1]);
-      return tf_cli_usage_error("unknown option -%c", optopt);
+      return tf_cli_other_option(c, usage, argv);
     }
   }
   if ((st = bk_model_check(&o->model)) != 0)

@@ -64,7 +64,7 @@ static int default_threads(void) {
   return (int)c;
 }
 
-static void usage(FILE *f) {
+static int usage(FILE *f) {
   fprintf(f,
 "Usage: %s [OPTION]... [FILE]...\n"
 "Growth rate, doubling or halving time and trend of the daily counts in\n"
@@ -108,6 +108,7 @@ static void usage(FILE *f) {
 "2 usage error, 3 unreadable or malformed input, 4 output error.\n"
 "Estimates depend on testing and reporting; see twofold(1).\n",
         f);
+  return 0;
 }
 
 enum {
@@ -200,7 +201,9 @@ static int parse_args(int argc, char **argv, options *o) {
       o->min_events = (double)v;
       break;
     case OPT_OFFSET:
-      o->offset = optarg;
+      if ((st = tf_cli_parse_name("--offset", "column", optarg,
+                                  &o->offset)))
+        return st;
       break;
     case 'g':
       if ((st = tf_cli_parse_pair("--generation-interval", optarg,
@@ -235,25 +238,8 @@ static int parse_args(int argc, char **argv, options *o) {
     case 'o':
       o->output = optarg;
       break;
-    case 'h':
-      usage(stdout);
-      if (fflush(stdout) != 0 || ferror(stdout)) {
-        tf_cli_msg("cannot write to standard output");
-        return TF_EXIT_OUTPUT;
-      }
-      return TF_EXIT_OK;
-    case 'V':
-      return tf_cli_print_version();
-    case ':':
-      if (strncmp(argv[optind - 1], "--", 2) == 0)
-        return tf_cli_usage_error("option %s needs an argument",
-                                  argv[optind - 1]);
-      return tf_cli_usage_error("option -%c needs an argument", optopt);
     default:
-      if (strncmp(argv[optind - 1], "--", 2) == 0)
-        return tf_cli_usage_error("unknown or ambiguous option %s",
-                                  argv[optind - 1]);
-      return tf_cli_usage_error("unknown option -%c", optopt);
+      return tf_cli_other_option(c, usage, argv);
     }
   }
   if (o->summary && (o->every_day || o->have_gi || o->offset))
