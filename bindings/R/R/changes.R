@@ -18,6 +18,12 @@ tf_cp_options <- function(kind = NULL, weekday = NULL, rate_prior = NULL,
          level = num(level), grid = grid)
 }
 
+# The changepoint options named like tf_cp_options's arguments, taken from
+# env (the frame of a function that has arguments of those names).
+tf_cp_options_from <- function(env) {
+    do.call(tf_cp_options, mget(names(formals(tf_cp_options)), envir = env))
+}
+
 find_changes <- function(counts, dates = NULL, start = NULL, kind = NULL,
                          weekday = NULL, rate_prior = NULL,
                          level_prior = NULL, changes_per_year = NULL,
@@ -26,15 +32,7 @@ find_changes <- function(counts, dates = NULL, start = NULL, kind = NULL,
                          prune = NULL, max_changes = NULL, level = NULL,
                          grid = NULL) {
     d <- tf_daily(counts, dates, start)
-    opts <- tf_cp_options(kind = kind, weekday = weekday,
-                          rate_prior = rate_prior, level_prior = level_prior,
-                          changes_per_year = changes_per_year,
-                          change_prob = change_prob,
-                          min_segment = min_segment,
-                          length_shape = length_shape,
-                          dispersion = dispersion, prune = prune,
-                          max_changes = max_changes, level = level,
-                          grid = grid)
+    opts <- tf_cp_options_from(environment())
     res <- tf_check(.Call(tfr_changes, d$y, tf_weekday(d$first_day), opts))
     day <- function(i) tf_as_date(d$first_day + i)
     n <- length(d$y)
@@ -95,15 +93,7 @@ online_changes <- function(max_candidates, seed, history = NULL,
         first_weekday <- if (is.na(d$first_day)) 1L else
             tf_weekday(d$first_day)
     }
-    opts <- tf_cp_options(kind = kind, weekday = weekday,
-                          rate_prior = rate_prior, level_prior = level_prior,
-                          changes_per_year = changes_per_year,
-                          change_prob = change_prob,
-                          min_segment = min_segment,
-                          length_shape = length_shape,
-                          dispersion = dispersion, prune = prune,
-                          max_changes = max_changes, level = level,
-                          grid = grid)
+    opts <- tf_cp_options_from(environment())
     ptr <- tf_check(.Call(tfr_online_new, d$y, first_weekday,
                           max_candidates, seed, opts))
     structure(list(ptr = ptr, first_day = as.integer(d$first_day)),
