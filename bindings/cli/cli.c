@@ -1102,6 +1102,22 @@ void tf_output_abort(tf_output *o) {
   output_free(o);
 }
 
+int tf_output_end(tf_output **out, tf_writer *w, int st, const char *path) {
+  if (st == TF_EXIT_OK && w != NULL && tf_writer_finish(w) != 0)
+    st = -1;
+  if (st == -1) {
+    tf_cli_msg("cannot write to %s: %s",
+               path && strcmp(path, "-") ? path : "standard output",
+               strerror(errno));
+    return TF_EXIT_OUTPUT;
+  }
+  if (st == TF_EXIT_OK) {
+    st = tf_output_commit(*out);
+    *out = NULL;
+  }
+  return st;
+}
+
 /* Make the rename itself durable: sync the folder that holds path.  A
  * failure here cannot undo the rename and is not reported. */
 static void sync_folder(const char *path) {

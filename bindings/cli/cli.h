@@ -252,6 +252,13 @@ int tf_output_commit(tf_output *o);
  * o; accepts NULL. */
 void tf_output_abort(tf_output *o);
 
+/* The end of a command's output.  st is TF_EXIT_OK, -1 (a write failed,
+ * errno says why) or another exit status.  With TF_EXIT_OK, finishes w
+ * (NULL: nothing to finish) and commits *out, which is then NULL; a failed
+ * write is reported, naming path (NULL or "-": standard output).  Returns
+ * the exit status; the caller still aborts *out (a no-op once NULL). */
+int tf_output_end(tf_output **out, tf_writer *w, int st, const char *path);
+
 /* ------------------------------------------------------------------ */
 /* Small helpers                                                       */
 /* ------------------------------------------------------------------ */

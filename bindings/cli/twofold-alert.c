@@ -637,19 +637,7 @@ static int run(const options *o, char **files, size_t nfiles) {
       bk_fit_free(&fits[i]);
     }
   }
-  if (st == TF_EXIT_OK && w != NULL && tf_writer_finish(w) != 0)
-    st = -1;
-  if (st == -1) {
-    tf_cli_msg("cannot write to %s: %s",
-               o->output && strcmp(o->output, "-") ? o->output
-                                                   : "standard output",
-               strerror(errno));
-    st = TF_EXIT_OUTPUT;
-  }
-  if (st == TF_EXIT_OK) {
-    st = tf_output_commit(out);
-    out = NULL;
-  }
+  st = tf_output_end(&out, w, st, o->output);
 done:
   tf_output_abort(out);
   tf_writer_free(w);

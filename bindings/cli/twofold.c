@@ -1201,19 +1201,7 @@ static int run(const options *o, char **files, size_t nfiles) {
   } else {
     st = write_growth(o, wk, nw, w, targets, ntargets);
   }
-  if (st == TF_EXIT_OK && tf_writer_finish(w) != 0)
-    st = -1;
-  if (st == -1) {
-    tf_cli_msg("cannot write to %s: %s",
-               o->output && strcmp(o->output, "-") ? o->output
-                                                   : "standard output",
-               strerror(errno));
-    st = TF_EXIT_OUTPUT;
-  }
-  if (st == TF_EXIT_OK) {
-    st = tf_output_commit(out);
-    out = NULL;
-  }
+  st = tf_output_end(&out, w, st, o->output);
 done:
   early_free(&ea);
   tf_output_abort(out);
