@@ -1203,6 +1203,23 @@ const char *tf_cli_format_number(char *out, size_t size, double v, int prec,
   return out;
 }
 
+const char *tf_cli_range_text(char *out, size_t size, double lo, double hi,
+                              int prec, int plus) {
+  if (isnan(lo) || isnan(hi))
+    return NULL;
+  char a[32], b[32];
+  tf_cli_format_number(a, sizeof a, lo, prec, plus);
+  tf_cli_format_number(b, sizeof b, hi, prec, plus);
+  snprintf(out, size, "%s..%s", a, b);
+  return out;
+}
+
+void tf_cli_ci_header(char *out, size_t size, double level) {
+  char pct[32];
+  tf_cli_format_number(pct, sizeof pct, 100 * level, -1, 0);
+  snprintf(out, size, "%s%% CI", pct);
+}
+
 const char *tf_cli_status_name(int code, char *out, size_t size) {
   if (code == 0) {
     snprintf(out, size, "ok");

@@ -272,6 +272,15 @@ int tf_output_end(tf_output **out, tf_writer *w, int st, const char *path);
 const char *tf_cli_format_number(char *out, size_t size, double v, int prec,
                                  int plus);
 
+/* "LO..HI" from tf_cli_format_number(prec, plus) of both ends, in out
+ * (>= 70 bytes); NULL (a table shows "-") if either end is NaN. */
+const char *tf_cli_range_text(char *out, size_t size, double lo, double hi,
+                              int prec, int plus);
+
+/* The header of an interval column, "95% CI" for level 0.95, in out
+ * (>= 40 bytes). */
+void tf_cli_ci_header(char *out, size_t size, double level);
+
 /* A status code's short lower-case name: "ok" for 0, "fewevents" for
  * TWOFOLD_EFEWEVENTS (from twofold_err_name()).  buf holds >= 32 bytes. */
 const char *tf_cli_status_name(int code, char *buf, size_t size);

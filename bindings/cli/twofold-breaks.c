@@ -165,7 +165,6 @@ static size_t record_columns(const options *o, tf_column *cols,
     memcpy(cols, src, n * sizeof *cols);
     return n;
   }
-  char pct[32];
   double level = o->model.have_level ? o->model.level : 0;
   if (!o->model.have_level) {
     twofold_cp_options *d = NULL;
@@ -173,8 +172,7 @@ static size_t record_columns(const options *o, tf_column *cols,
       level = twofold_cp_options_get_level(d);
     twofold_cp_options_free(d);
   }
-  tf_cli_format_number(pct, sizeof pct, 100 * level, -1, 0);
-  snprintf(ci_header, size, "%s%% CI", pct);
+  tf_cli_ci_header(ci_header, size, level);
   cols[n++] = (tf_column){"region", TF_ALIGN_LEFT};
   cols[n++] = (tf_column){"date", TF_ALIGN_LEFT};
   if (o->daily) {
@@ -190,18 +188,6 @@ static size_t record_columns(const options *o, tf_column *cols,
     cols[n++] = (tf_column){"after %/day", TF_ALIGN_RIGHT};
   }
   return n;
-}
-
-/* "LO..HI"; NULL (shown "-") if either end is NaN. */
-static const char *range_text(char *out, size_t size, double lo, double hi,
-                              int prec, int plus) {
-  if (isnan(lo) || isnan(hi))
-    return NULL;
-  char a[32], b[32];
-  tf_cli_format_number(a, sizeof a, lo, prec, plus);
-  tf_cli_format_number(b, sizeof b, hi, prec, plus);
-  snprintf(out, size, "%s..%s", a, b);
-  return out;
 }
 
 static const char *date_range_text(char *out, size_t size, int32_t a,
@@ -333,8 +319,8 @@ static int write_daily(const options *o, tf_writer *w, const bk_fit *f) {
       c[n++] = tf_cell_dbl(f->y[i], 0);
       c[n++] = tf_cell_dbl(f->p[i], 3);
       c[n++] = tf_cell_dbl_signed(100 * f->g[i], 1);
-      c[n++] = tf_cell_str(range_text(ci, sizeof ci, 100 * f->glo[i],
-                                      100 * f->ghi[i], 1, 1));
+      c[n++] = tf_cell_str(tf_cli_range_text(
+          ci, sizeof ci, 100 * f->glo[i], 100 * f->ghi[i], 1, 1));
       c[n++] = clear ? tf_cell_dbl(f->dt[i], 1) : tf_cell_null();
     } else {
       c[n++] = tf_cell_str(region);

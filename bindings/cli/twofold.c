@@ -519,9 +519,7 @@ static size_t record_columns(const options *o, tf_column *cols,
         cols[n++] = growth_cols[j];
     return n;
   }
-  char pct[32];
-  tf_cli_format_number(pct, sizeof pct, 100 * o->level, -1, 0);
-  snprintf(ci_header, size, "%s%% CI", pct);
+  tf_cli_ci_header(ci_header, size, o->level);
   cols[n++] = (tf_column){"region", TF_ALIGN_LEFT};
   cols[n++] = (tf_column){"date", TF_ALIGN_LEFT};
   cols[n++] = (tf_column){"%/day", TF_ALIGN_RIGHT};
@@ -533,18 +531,6 @@ static size_t record_columns(const options *o, tf_column *cols,
   }
   cols[n++] = (tf_column){"trend", TF_ALIGN_LEFT};
   return n;
-}
-
-/* "LO..HI" for a table; NULL (shown "-") if either end is NaN. */
-static const char *range_text(char *out, size_t size, double lo, double hi,
-                              int prec, int plus) {
-  if (isnan(lo) || isnan(hi))
-    return NULL;
-  char a[32], b[32];
-  tf_cli_format_number(a, sizeof a, lo, prec, plus);
-  tf_cli_format_number(b, sizeof b, hi, prec, plus);
-  snprintf(out, size, "%s..%s", a, b);
-  return out;
 }
 
 static int write_estimate(const options *o, tf_writer *w, const target *t,
@@ -563,12 +549,13 @@ static int write_estimate(const options *o, tf_writer *w, const target *t,
     c[n++] = tf_cell_str(region);
     c[n++] = tf_cell_date(e->end);
     c[n++] = tf_cell_dbl_signed(100 * e->r, 1);
-    c[n++] = tf_cell_str(
-        range_text(r_ci, sizeof r_ci, 100 * e->lo, 100 * e->hi, 1, 1));
+    c[n++] = tf_cell_str(tf_cli_range_text(r_ci, sizeof r_ci, 100 * e->lo,
+                                           100 * e->hi, 1, 1));
     c[n++] = clear ? tf_cell_dbl(e->t, 1) : tf_cell_null();
     if (o->have_gi) {
       c[n++] = tf_cell_dbl(e->R, 2);
-      c[n++] = tf_cell_str(range_text(R_ci, sizeof R_ci, e->R_lo, e->R_hi, 2, 0));
+      c[n++] = tf_cell_str(
+          tf_cli_range_text(R_ci, sizeof R_ci, e->R_lo, e->R_hi, 2, 0));
     }
     c[n++] = tf_cell_str(trend);
     return tf_writer_row(w, c);
