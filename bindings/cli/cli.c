@@ -816,6 +816,20 @@ static int table_hold(tf_writer *w, const tf_cell *cells) {
   return 0;
 }
 
+/* The TSV or CSV header line of w's columns, into b. */
+static void header_line(const tf_writer *w, buf *b) {
+  char sep = w->format == TF_FORMAT_TSV ? '\t' : ',';
+  for (size_t j = 0; j < w->ncols; j++) {
+    if (j > 0)
+      buf_putc(b, sep);
+    if (w->format == TF_FORMAT_TSV)
+      tsv_field(b, w->cols[j].name);
+    else
+      csv_field(b, w->cols[j].name);
+  }
+  buf_putc(b, '\n');
+}
+
 int tf_writer_row(tf_writer *w, const tf_cell *cells) {
   if (w->failed) {
     errno = w->failed;
@@ -830,17 +844,8 @@ int tf_writer_row(tf_writer *w, const tf_cell *cells) {
   }
   buf b = {0};
   char sep = w->format == TF_FORMAT_TSV ? '\t' : ',';
-  if (!w->header_done && w->format != TF_FORMAT_JSON) {
-    for (size_t j = 0; j < w->ncols; j++) {
-      if (j > 0)
-        buf_putc(&b, sep);
-      if (w->format == TF_FORMAT_TSV)
-        tsv_field(&b, w->cols[j].name);
-      else
-        csv_field(&b, w->cols[j].name);
-    }
-    buf_putc(&b, '\n');
-  }
+  if (!w->header_done && w->format != TF_FORMAT_JSON)
+    header_line(w, &b);
   w->header_done = 1;
   if (w->format == TF_FORMAT_JSON) {
     buf_putc(&b, '{');
@@ -924,16 +929,7 @@ int tf_writer_finish(tf_writer *w) {
   } else if (!w->header_done && w->format != TF_FORMAT_JSON) {
     /* No records: TSV and CSV still get their header line. */
     buf b = {0};
-    char sep = w->format == TF_FORMAT_TSV ? '\t' : ',';
-    for (size_t j = 0; j < w->ncols; j++) {
-      if (j > 0)
-        buf_putc(&b, sep);
-      if (w->format == TF_FORMAT_TSV)
-        tsv_field(&b, w->cols[j].name);
-      else
-        csv_field(&b, w->cols[j].name);
-    }
-    buf_putc(&b, '\n');
+    header_line(w, &b);
     w->header_done = 1;
     if (put_buf(w, &b) != 0)
       return -1;
