@@ -11,6 +11,14 @@
  * sums share one exponential per evaluation (growth_fit.c, geom_fast);
  * the estimate and the profile-interval ends are found by Halley steps
  * started from the previous day's estimate and interval offsets.
+ * Complete 21-day Poisson windows with weekday effects (seven classes of
+ * three days) go further (fit_w21 below): the estimate solves a quadratic
+ * in e^{7r}, so it costs one square root and one logarithm, and each
+ * profile-interval end starts from a fourth-order series inversion of
+ * the profile about the estimate, so that one Halley step on the exact
+ * equation (one expm1 and one log1p) usually ends it; their edge cases
+ * are checked from the class sums (whole_status), with the statuses of
+ * the general fit.
  * The prefix sums hold whole numbers, which doubles add exactly while the
  * totals stay below 2^53; longer or larger series fall back to direct
  * sums.  Windows with missing days keep the same sums (a missing day
@@ -25,6 +33,185 @@
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
+
+/* ------------------------------------------------------------------ */
+/* Complete 21-day Poisson windows with weekday effects                */
+/* ------------------------------------------------------------------ */
+
+/* The status of a complete window (no missing day) from its class sums
+ * Yk (class k = the window's days k, k + 7, ...), with the edge cases in
+ * the order of checks() in growth_fit.c: a weekday absent, too few days
+ * for the parameters, all counts zero, fewer events than the minimum, a
+ * class without events, events only on the last (first) day of every
+ * class. */
+static int whole_status(const twofold_fit_options *o, const double *y,
+                        size_t n, int nc, const double *Yk, double Ytot) {
+  if (nc == 7 && n < 7)
+    return TWOFOLD_EWEEKDAY;
+  if (n < (size_t)nc + 2)
+    return TWOFOLD_ENODATA;
+  if (Ytot == 0.0)
+    return TWOFOLD_EZERO;
+  if (Ytot < o->min_events)
+    return TWOFOLD_EFEWEVENTS;
+  int up = 1, down = 1;
+  if (nc == 7) {
+    for (size_t k = 0; k < 7; k++)
+      if (Yk[k] == 0.0)
+        return TWOFOLD_ESEPARATION;
+    for (size_t k = 0; k < 7; k++) {
+      size_t L = (n - k + 6) / 7;
+      if (y[k + 7 * (L - 1)] != Yk[k])
+        up = 0;
+      if (y[k] != Yk[k])
+        down = 0;
+    }
+  } else {
+    up = y[n - 1] == Ytot;
+    down = y[0] == Ytot;
+  }
+  return up || down ? TWOFOLD_ESEPARATION : 0;
+}
+
+/* With seven classes of three days, in x = 7 r the profile
+ * log-likelihood is l(x) = K x - Y G(x), G(x) = log(1 + e^x + e^{2x}),
+ * Y the window's events and K = sum_k (y_k1 + 2 y_k2) over the classes'
+ * second and third days, both whole numbers (K = (T - U) / 7 exactly, U =
+ * sum_k k Yk).  With D = K - Y the score K - Y G'(x) = 0 is the quadratic
+ * (Y - D) q^2 - D q - (Y + D) = 0 in q = e^x, whose positive root is
+ * q = 2K / (S - D) (D < 0) or 1/q = 2(2Y - K) / (D + S) (D >= 0), S =
+ * sqrt(4 Y^2 - 3 D^2), written so that nothing cancels; 0 < K < 2Y once
+ * the separation checks have passed.  The weights a_k of k = 0, 1, 2 at
+ * the estimate are scaled so that the largest is 1; the variance of k is
+ * (a0 a1 + 4 a0 a2 + a1 a2) / (a0 + a1 + a2)^2.
+ *
+ * The profile-interval ends solve l(xhat) - l(xhat + d) = cc.  The
+ * start is the root of the Taylor polynomial of degree GT_DEG of G about
+ * xhat (its coefficients from the log of the power series of
+ * a0 + a1 e^d + a2 e^{2d}; G is analytic within 2 pi / 3 of the real
+ * axis); Halley steps on the exact equation then stop, as gp_root in
+ * growth_fit.c, once a step is below 1e-5 of the Wald half-width, which
+ * leaves an error of the order of the cube of that step.  Each exact
+ * step costs one expm1 and one log1p: G(xhat + d) - G(xhat) =
+ * log1p(e (a1 + a2 (e + 2)) / (a0 + a1 + a2)), e = expm1(d). */
+
+typedef struct {
+  double Y, K, a0, a1, a2, is0;
+} w21_t;
+
+/* The end of side sd (+1/-1) as an offset d in x from d0; NaN on
+ * failure. */
+static double w21_end(const w21_t *p, double cc, double sd, double d,
+                      double scale) {
+  for (int it = 0; it < 60; it++) {
+    double e = expm1(d);
+    double dG = log1p(e * (p->a1 + p->a2 * (e + 2.0)) * p->is0);
+    double f = p->K * d - p->Y * dG + cc;
+    double w1 = p->a1 * (1.0 + e), w2 = p->a2 * (1.0 + e) * (1.0 + e);
+    double W = p->a0 + w1 + w2;
+    double m = (w1 + 2.0 * w2) / W;
+    double h = p->Y * (p->a0 * w1 + 4.0 * p->a0 * w2 + w1 * w2) / (W * W);
+    double d1 = p->K - p->Y * m;
+    if (!(sd * d1 < 0.0) || !isfinite(f) || !isfinite(h))
+      return NAN;
+    double dn = -f / d1;                /* Newton   */
+    double den = 2.0 * d1 * d1 + f * h; /* f'' = -h */
+    double dx = den > 0.0 ? -2.0 * f * d1 / den : dn; /* Halley */
+    if (!(fabs(dx) <= 2.0 * fabs(dn)))
+      dx = dn;
+    if (sd * (d + dx) <= 0.0)
+      dx = -0.5 * d; /* stay on this side */
+    d += dx;
+    if (fabs(dx) < 1e-5 * scale)
+      return d;
+  }
+  return NAN;
+}
+
+/* The Poisson fit of a complete 21-day window with weekday effects that
+ * passed whole_status: the estimate in *r and the interval (profile if
+ * prof, else Wald) in *lo, *hi.  hint: the previous window's interval
+ * offsets (NaN if none), the start should the Taylor one fail.  Returns
+ * 0, or 1 when the general path should fit the window. */
+static int fit_w21(const double *Yk, double T, const tf_quant *Q, int prof,
+                   const double *hint, double *r, double *lo, double *hi) {
+  w21_t p;
+  double Y = 0.0, U = 0.0;
+  for (int k = 0; k < 7; k++) {
+    Y += Yk[k];
+    U += (double)k * Yk[k];
+  }
+  double K = (T - U) / 7.0, D = K - Y;
+  double S = sqrt(4.0 * Y * Y - 3.0 * D * D);
+  double x;
+  if (D >= 0.0) {
+    double iq = 2.0 * (Y - D) / (D + S);
+    p.a0 = iq * iq;
+    p.a1 = iq;
+    p.a2 = 1.0;
+    x = -log(iq);
+  } else {
+    double q = 2.0 * K / (S - D);
+    p.a0 = 1.0;
+    p.a1 = q;
+    p.a2 = q * q;
+    x = log(q);
+  }
+  double s0 = p.a0 + p.a1 + p.a2;
+  double V = (p.a0 * p.a1 + 4.0 * p.a0 * p.a2 + p.a1 * p.a2) / (s0 * s0);
+  double h = 49.0 * Y * V;
+  if (!isfinite(x) || !(h > 0.0) || !isfinite(h))
+    return 1;
+  double rh = x / 7.0, se = 1.0 / sqrt(h), st = Q->z * se;
+  *r = rh;
+  if (!prof) {
+    *lo = rh - st;
+    *hi = rh + st;
+    return 0;
+  }
+  /* the start: with G(xhat + d) - G(xhat) = m d + sum_{n>=2} k_n d^n /
+   * n!, k_n the cumulants of k under the weights a_k, the end solves
+   * d sqrt(1 + b1 d + b2 d^2 + b3 d^3 + ...) = +-u, u = sqrt(2 cc / (Y
+   * k_2)), b1 = k_3 / (3 k_2), b2 = k_4 / (12 k_2), b3 = k_5 / (60 k_2),
+   * inverted as a power series in u to the fourth order.  The cumulants
+   * come from the moments of k - 1, whose odd ones are all m1 = (a2 -
+   * a0) / s0 and even ones m2 = (a2 + a0) / s0. */
+  double m1 = (p.a2 - p.a0) / s0, m2 = (p.a2 + p.a0) / s0, m1s = m1 * m1;
+  double k3 = m1 * (1.0 - 3.0 * m2 + 2.0 * m1s);
+  double k4 = m2 - 4.0 * m1s - 3.0 * m2 * m2 + 12.0 * m2 * m1s -
+              6.0 * m1s * m1s;
+  double k5 = m1 * (1.0 - 15.0 * m2 + 20.0 * m1s + 30.0 * m2 * m2 -
+                    60.0 * m2 * m1s + 24.0 * m1s * m1s);
+  double iv = 1.0 / V;
+  double b1 = k3 * iv / 3.0, b2 = k4 * iv / 12.0, b3 = k5 * iv / 60.0;
+  double be1 = 0.5 * b1, be2 = 0.5 * b2 - 0.125 * b1 * b1;
+  double be3 = 0.5 * b3 - 0.25 * b1 * b2 + b1 * b1 * b1 / 16.0;
+  double c2 = -be1, c3 = 2.0 * be1 * be1 - be2;
+  double c4 = -5.0 * be1 * be1 * be1 + 5.0 * be1 * be2 - be3;
+  p.Y = Y;
+  p.K = K;
+  p.is0 = 1.0 / s0;
+  double u = sqrt(2.0 * Q->c / (Y * V));
+  double sc = 7.0 * st + 1e-300;
+  double h0 = -u * (1.0 - u * (c2 - u * (c3 - u * c4)));
+  double h1 = u * (1.0 + u * (c2 + u * (c3 + u * c4)));
+  if (!(h0 < 0.0 && h0 > -2.0 * u && h1 > 0.0 && h1 < 2.0 * u)) {
+    /* the previous window's offsets, or the Wald ends */
+    h0 = -7.0 * st;
+    h1 = 7.0 * st;
+    if (hint && hint[0] < 0.0 && hint[1] > 0.0) {
+      h0 = 7.0 * hint[0];
+      h1 = 7.0 * hint[1];
+    }
+  }
+  double dlo = w21_end(&p, Q->c, -1.0, h0, sc);
+  double dhi = w21_end(&p, Q->c, +1.0, h1, sc);
+  if (tf_isnan(dlo) || tf_isnan(dhi))
+    return 1;
+  *lo = rh + dlo / 7.0;
+  *hi = rh + dhi / 7.0;
+  return 0;
+}
 
 int twofold_growth_roll(const twofold_fit_options *o, const double *y,
                         const double *offset, size_t n, int first_weekday,
@@ -111,8 +298,11 @@ int twofold_growth_roll(const twofold_fit_options *o, const double *y,
   /* only statuses are returned: the windows' messages are not formatted */
   res[0].quiet = res[1].quiet = 1;
   int have_prev = 0;
-  double prev_r = 0.0;
+  double prev_r = 0.0, prev_off[2] = {NAN, NAN};
   size_t prev_st = 0;
+  int need_prof = kind != TWOFOLD_INTERVAL_WALD;
+  int lean = fast && o->model == TWOFOLD_MODEL_POISSON && o->weekday &&
+             w == 21;
   for (size_t i = 0; i < n; i++) {
     long long s = align == TWOFOLD_ALIGN_TRAILING
                       ? (long long)i - (long long)w + 1
@@ -139,8 +329,37 @@ int twofold_growth_roll(const twofold_fit_options *o, const double *y,
       }
       double hint[2] = {NAN, NAN};
       if (have_prev) {
-        hint[0] = prev->prof[0] - prev->r;
-        hint[1] = prev->prof[1] - prev->r;
+        hint[0] = prev_off[0];
+        hint[1] = prev_off[1];
+      }
+      size_t nmiss = miss[st + w] - miss[st];
+      if (lean && nmiss == 0) {
+        double Ytot = 0.0;
+        for (int k = 0; k < 7; k++)
+          Ytot += Yk[k];
+        rc = whole_status(o, y + st, w, 7, Yk, Ytot);
+        double r, lo, hi;
+        if (rc == 0 &&
+            fit_w21(Yk, T, &Q, need_prof, hint, &r, &lo, &hi) != 0)
+          rc = 1; /* the general path */
+        if (rc <= 0) {
+          if (status)
+            status[i] = rc;
+          if (rc == 0) {
+            if (rate)
+              rate[i] = r;
+            if (rate_lo)
+              rate_lo[i] = lo;
+            if (rate_hi)
+              rate_hi[i] = hi;
+            have_prev = 1;
+            prev_r = r;
+            prev_off[0] = need_prof ? lo - r : NAN;
+            prev_off[1] = need_prof ? hi - r : NAN;
+            prev_st = st;
+          }
+          continue;
+        }
       }
       rc = tf_growth_geom(o, y + st, w, miss[st + w] - miss[st], cw, Yk, T,
                           want, have_prev ? prev_r : 0.0, hint, &Q, cur);
@@ -170,6 +389,8 @@ int twofold_growth_roll(const twofold_fit_options *o, const double *y,
       cur = tmp;
       have_prev = 1;
       prev_r = prev->r;
+      prev_off[0] = prev->prof[0] - prev->r;
+      prev_off[1] = prev->prof[1] - prev->r;
       prev_st = st;
     }
   }
