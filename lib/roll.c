@@ -99,33 +99,40 @@ typedef struct {
   double Y, K, a0, a1, a2, is0;
 } w21_t;
 
-/* The end of side sd (+1/-1) as an offset d in x from d0; NaN on
- * failure. */
-static double w21_end(const w21_t *p, double cc, double sd, double d,
-                      double scale) {
+/* The interval ends as offsets d[0] < 0 < d[1] in x, from the starts in
+ * d; both sides step together (their chains of dependent operations then
+ * overlap).  Returns 0, or -1 on failure. */
+static int w21_ends(const w21_t *p, double cc, double *d, double scale) {
+  int todo[2] = {1, 1};
   for (int it = 0; it < 60; it++) {
-    double e = expm1(d);
-    double dG = log1p(e * (p->a1 + p->a2 * (e + 2.0)) * p->is0);
-    double f = p->K * d - p->Y * dG + cc;
-    double w1 = p->a1 * (1.0 + e), w2 = p->a2 * (1.0 + e) * (1.0 + e);
-    double W = p->a0 + w1 + w2;
-    double m = (w1 + 2.0 * w2) / W;
-    double h = p->Y * (p->a0 * w1 + 4.0 * p->a0 * w2 + w1 * w2) / (W * W);
-    double d1 = p->K - p->Y * m;
-    if (!(sd * d1 < 0.0) || !isfinite(f) || !isfinite(h))
-      return NAN;
-    double dn = -f / d1;                /* Newton   */
-    double den = 2.0 * d1 * d1 + f * h; /* f'' = -h */
-    double dx = den > 0.0 ? -2.0 * f * d1 / den : dn; /* Halley */
-    if (!(fabs(dx) <= 2.0 * fabs(dn)))
-      dx = dn;
-    if (sd * (d + dx) <= 0.0)
-      dx = -0.5 * d; /* stay on this side */
-    d += dx;
-    if (fabs(dx) < 1e-5 * scale)
-      return d;
+    for (int s = 0; s < 2; s++) {
+      if (!todo[s])
+        continue;
+      double sd = s ? 1.0 : -1.0, x = d[s];
+      double e = expm1(x);
+      double dG = log1p(e * (p->a1 + p->a2 * (e + 2.0)) * p->is0);
+      double f = p->K * x - p->Y * dG + cc;
+      double e1 = 1.0 + e, w1 = p->a1 * e1, w2 = p->a2 * e1 * e1;
+      double iW = 1.0 / (p->a0 + w1 + w2);
+      double m = (w1 + 2.0 * w2) * iW;
+      double h = p->Y * (p->a0 * w1 + 4.0 * p->a0 * w2 + w1 * w2) * iW * iW;
+      double d1 = p->K - p->Y * m;
+      if (!(sd * d1 < 0.0) || !isfinite(f) || !isfinite(h))
+        return -1;
+      /* Halley, or Newton where Halley's step would be more than twice
+       * Newton's (den < d1^2) */
+      double den = 2.0 * d1 * d1 + f * h; /* f'' = -h */
+      double dx = den >= d1 * d1 ? -2.0 * f * d1 / den : -f / d1;
+      if (sd * (x + dx) <= 0.0)
+        dx = -0.5 * x; /* stay on this side */
+      d[s] = x + dx;
+      if (fabs(dx) < 1e-5 * scale)
+        todo[s] = 0;
+    }
+    if (!todo[0] && !todo[1])
+      return 0;
   }
-  return NAN;
+  return -1;
 }
 
 /* The Poisson fit of a complete 21-day window with weekday effects that
@@ -204,12 +211,11 @@ static int fit_w21(const double *Yk, double T, const tf_quant *Q, int prof,
       h1 = 7.0 * hint[1];
     }
   }
-  double dlo = w21_end(&p, Q->c, -1.0, h0, sc);
-  double dhi = w21_end(&p, Q->c, +1.0, h1, sc);
-  if (tf_isnan(dlo) || tf_isnan(dhi))
+  double d[2] = {h0, h1};
+  if (w21_ends(&p, Q->c, d, sc) != 0)
     return 1;
-  *lo = rh + dlo / 7.0;
-  *hi = rh + dhi / 7.0;
+  *lo = rh + d[0] / 7.0;
+  *hi = rh + d[1] / 7.0;
   return 0;
 }
 
