@@ -16,16 +16,17 @@
  * in e^{7r}, so it costs one square root and one logarithm, and each
  * profile-interval end starts from a fourth-order series inversion of
  * the profile about the estimate, so that one Halley step on the exact
- * equation (one expm1 and one log1p) usually ends it; their edge cases
- * are checked from the class sums (whole_status), with the statuses of
- * the general fit.
+ * equation (one expm1 and one log1p) usually ends it; their class sums
+ * are read from the window's 21 days directly, and their edge cases are
+ * checked from these sums (w21_status), with the statuses of the general
+ * fit.  A window this path cannot finish goes to the general one.
  * The prefix sums hold whole numbers, which doubles add exactly while the
  * totals stay below 2^53; longer or larger series fall back to direct
  * sums.  Windows with missing days keep the same sums (a missing day
  * adds 0); their class power sums skip the missing days, so each class
  * is its own group (one exponential per evaluation still).  Windows with
- * offsets, and NB2 windows, use the general fit (O(w) per iteration).  Every window starts from the
- * previous day's estimate (NB2: also its Cox-Reid adjustment of theta),
+ * offsets, and NB2 windows, use the general fit (O(w) per iteration).
+ * Every window starts from the previous day's estimate (NB2: also its Cox-Reid adjustment of theta),
  * and the interval quantiles are computed once per call.
  */
 #include "growth_internal.h"
@@ -38,63 +39,55 @@
 /* Complete 21-day Poisson windows with weekday effects                */
 /* ------------------------------------------------------------------ */
 
-/* The status of a complete window (no missing day) from its class sums
- * Yk (class k = the window's days k, k + 7, ...), with the edge cases in
- * the order of checks() in growth_fit.c: a weekday absent, too few days
- * for the parameters, all counts zero, fewer events than the minimum, a
- * class without events, events only on the last (first) day of every
- * class. */
-static int whole_status(const twofold_fit_options *o, const double *y,
-                        size_t n, int nc, const double *Yk, double Ytot) {
-  if (nc == 7 && n < 7)
-    return TWOFOLD_EWEEKDAY;
-  if (n < (size_t)nc + 2)
-    return TWOFOLD_ENODATA;
-  if (Ytot == 0.0)
-    return TWOFOLD_EZERO;
-  if (Ytot < o->min_events)
-    return TWOFOLD_EFEWEVENTS;
-  int up = 1, down = 1;
-  if (nc == 7) {
-    for (size_t k = 0; k < 7; k++)
-      if (Yk[k] == 0.0)
-        return TWOFOLD_ESEPARATION;
-    for (size_t k = 0; k < 7; k++) {
-      size_t L = (n - k + 6) / 7;
-      if (y[k + 7 * (L - 1)] != Yk[k])
-        up = 0;
-      if (y[k] != Yk[k])
-        down = 0;
-    }
-  } else {
-    up = y[n - 1] == Ytot;
-    down = y[0] == Ytot;
+/* A complete 21-day window with weekday effects, yw its first day:
+ * class k holds days k, k + 7, k + 14.  Sets the total events *Y and K =
+ * sum_k (y_{k+7} + 2 y_{k+14}) and returns the window's status, with the
+ * edge cases in the order of checks() in growth_fit.c (a weekday absent
+ * and too few days cannot happen here): all counts zero, fewer events
+ * than the minimum, a class without events, events only on the last
+ * (first) day of every class. */
+static int w21_status(const twofold_fit_options *o, const double *yw,
+                      double *Y, double *K) {
+  double Yk[7], tY = 0.0, tK = 0.0;
+  int up = 1, down = 1, empty = 0;
+  for (int k = 0; k < 7; k++) {
+    double a = yw[k], b = yw[k + 7], c = yw[k + 14];
+    Yk[k] = a + b + c;
+    tY += Yk[k];
+    tK += b + 2.0 * c;
+    empty |= Yk[k] == 0.0;
+    up &= c == Yk[k];
+    down &= a == Yk[k];
   }
-  return up || down ? TWOFOLD_ESEPARATION : 0;
+  *Y = tY;
+  *K = tK;
+  if (tY == 0.0)
+    return TWOFOLD_EZERO;
+  if (tY < o->min_events)
+    return TWOFOLD_EFEWEVENTS;
+  return empty || up || down ? TWOFOLD_ESEPARATION : 0;
 }
 
 /* With seven classes of three days, in x = 7 r the profile
  * log-likelihood is l(x) = K x - Y G(x), G(x) = log(1 + e^x + e^{2x}),
- * Y the window's events and K = sum_k (y_k1 + 2 y_k2) over the classes'
- * second and third days, both whole numbers (K = (T - U) / 7 exactly, U =
- * sum_k k Yk).  With D = K - Y the score K - Y G'(x) = 0 is the quadratic
- * (Y - D) q^2 - D q - (Y + D) = 0 in q = e^x, whose positive root is
- * q = 2K / (S - D) (D < 0) or 1/q = 2(2Y - K) / (D + S) (D >= 0), S =
- * sqrt(4 Y^2 - 3 D^2), written so that nothing cancels; 0 < K < 2Y once
- * the separation checks have passed.  The weights a_k of k = 0, 1, 2 at
- * the estimate are scaled so that the largest is 1; the variance of k is
- * (a0 a1 + 4 a0 a2 + a1 a2) / (a0 + a1 + a2)^2.
+ * Y the window's events and K = sum_k (y_{k+7} + 2 y_{k+14}), both whole
+ * numbers (added exactly, as the prefix sums).  With D = K - Y the score
+ * K - Y G'(x) = 0 is the quadratic (Y - D) q^2 - D q - (Y + D) = 0 in
+ * q = e^x, whose positive root is q = 2K / (S - D) (D < 0) or 1/q =
+ * 2(2Y - K) / (D + S) (D >= 0), S = sqrt(4 Y^2 - 3 D^2), written so that
+ * nothing cancels; 0 < K < 2Y once the separation checks have passed.
+ * The variance of k there, S K (2Y - K) / (Y^2 (Y + S)), gives the
+ * standard error without waiting for q.  The weights a_k of k = 0, 1, 2
+ * at the estimate are scaled so that the largest is 1.
  *
- * The profile-interval ends solve l(xhat) - l(xhat + d) = cc.  The
- * start is the root of the Taylor polynomial of degree GT_DEG of G about
- * xhat (its coefficients from the log of the power series of
- * a0 + a1 e^d + a2 e^{2d}; G is analytic within 2 pi / 3 of the real
- * axis); Halley steps on the exact equation then stop, as gp_root in
- * growth_fit.c, once a step is below 1e-5 of the Wald half-width, which
- * leaves an error of the order of the cube of that step.  Each exact
- * step costs one expm1 and one log1p: G(xhat + d) - G(xhat) =
- * log1p(e (a1 + a2 (e + 2)) / (a0 + a1 + a2)), e = expm1(d). */
-
+ * The profile-interval ends solve l(xhat) - l(xhat + d) = cc.  Each
+ * starts from the series inversion described in fit_w21; Halley steps on
+ * the exact equation then stop, as gp_root in growth_fit.c, once a step
+ * is below 1e-5 of the Wald half-width, which leaves an error of the
+ * order of the cube of that step (for the benchmark districts one exact
+ * step per end, as the start is already that close).  Each exact step
+ * costs one expm1 and one log1p: G(xhat + d) - G(xhat) = log1p(e (a1 +
+ * a2 (e + 2)) / (a0 + a1 + a2)), e = expm1(d). */
 typedef struct {
   double Y, K, a0, a1, a2, is0;
 } w21_t;
@@ -136,20 +129,20 @@ static int w21_ends(const w21_t *p, double cc, double *d, double scale) {
 }
 
 /* The Poisson fit of a complete 21-day window with weekday effects that
- * passed whole_status: the estimate in *r and the interval (profile if
- * prof, else Wald) in *lo, *hi.  hint: the previous window's interval
- * offsets (NaN if none), the start should the Taylor one fail.  Returns
- * 0, or 1 when the general path should fit the window. */
-static int fit_w21(const double *Yk, double T, const tf_quant *Q, int prof,
+ * passed w21_status (Y, K from it): the estimate in *r and the interval
+ * (profile if prof, else Wald) in *lo, *hi.  hint: the previous window's
+ * interval offsets (NULL or NaN if none), the start should the series
+ * one fail.  Returns 0, or 1 when the general path should fit the
+ * window. */
+static int fit_w21(double Y, double K, const tf_quant *Q, int prof,
                    const double *hint, double *r, double *lo, double *hi) {
   w21_t p;
-  double Y = 0.0, U = 0.0;
-  for (int k = 0; k < 7; k++) {
-    Y += Yk[k];
-    U += (double)k * Yk[k];
-  }
-  double K = (T - U) / 7.0, D = K - Y;
+  double D = K - Y;
   double S = sqrt(4.0 * Y * Y - 3.0 * D * D);
+  /* the variance of k at the estimate, s (1 - c^2) / (1 + s) with c =
+   * D / Y, s = S / Y (from the mean c of k - 1 and its quadratic) */
+  double V = S * K * (Y - D) / (Y * Y * (Y + S));
+  double h = 49.0 * Y * V;
   double x;
   if (D >= 0.0) {
     double iq = 2.0 * (Y - D) / (D + S);
@@ -164,9 +157,6 @@ static int fit_w21(const double *Yk, double T, const tf_quant *Q, int prof,
     p.a2 = q * q;
     x = log(q);
   }
-  double s0 = p.a0 + p.a1 + p.a2;
-  double V = (p.a0 * p.a1 + 4.0 * p.a0 * p.a2 + p.a1 * p.a2) / (s0 * s0);
-  double h = 49.0 * Y * V;
   if (!isfinite(x) || !(h > 0.0) || !isfinite(h))
     return 1;
   double rh = x / 7.0, se = 1.0 / sqrt(h), st = Q->z * se;
@@ -183,6 +173,7 @@ static int fit_w21(const double *Yk, double T, const tf_quant *Q, int prof,
    * inverted as a power series in u to the fourth order.  The cumulants
    * come from the moments of k - 1, whose odd ones are all m1 = (a2 -
    * a0) / s0 and even ones m2 = (a2 + a0) / s0. */
+  double s0 = p.a0 + p.a1 + p.a2;
   double m1 = (p.a2 - p.a0) / s0, m2 = (p.a2 + p.a0) / s0, m1s = m1 * m1;
   double k3 = m1 * (1.0 - 3.0 * m2 + 2.0 * m1s);
   double k4 = m2 - 4.0 * m1s - 3.0 * m2 * m2 + 12.0 * m2 * m1s -
@@ -318,6 +309,30 @@ int twofold_growth_roll(const twofold_fit_options *o, const double *y,
     size_t st = (size_t)s;
     int cw = (int)((wd0 + st) % 7);
     int rc;
+    if (lean && miss[st + w] == miss[st]) {
+      double Y, K, r, lo, hi;
+      rc = w21_status(o, y + st, &Y, &K);
+      if (rc == 0 && fit_w21(Y, K, &Q, need_prof, have_prev ? prev_off : NULL,
+                             &r, &lo, &hi) != 0)
+        rc = 1; /* the general path */
+      if (rc <= 0) {
+        if (status)
+          status[i] = rc;
+        if (rc == 0) {
+          if (rate)
+            rate[i] = r;
+          if (rate_lo)
+            rate_lo[i] = lo;
+          if (rate_hi)
+            rate_hi[i] = hi;
+          have_prev = 1;
+          prev_r = r;
+          prev_off[0] = need_prof ? lo - r : NAN;
+          prev_off[1] = need_prof ? hi - r : NAN;
+        }
+        continue;
+      }
+    }
     if (fast) {
       double Yk[7], T = 0.0;
       for (size_t k = 0; k < 7; k++) {
@@ -337,35 +352,6 @@ int twofold_growth_roll(const twofold_fit_options *o, const double *y,
       if (have_prev) {
         hint[0] = prev_off[0];
         hint[1] = prev_off[1];
-      }
-      size_t nmiss = miss[st + w] - miss[st];
-      if (lean && nmiss == 0) {
-        double Ytot = 0.0;
-        for (int k = 0; k < 7; k++)
-          Ytot += Yk[k];
-        rc = whole_status(o, y + st, w, 7, Yk, Ytot);
-        double r, lo, hi;
-        if (rc == 0 &&
-            fit_w21(Yk, T, &Q, need_prof, hint, &r, &lo, &hi) != 0)
-          rc = 1; /* the general path */
-        if (rc <= 0) {
-          if (status)
-            status[i] = rc;
-          if (rc == 0) {
-            if (rate)
-              rate[i] = r;
-            if (rate_lo)
-              rate_lo[i] = lo;
-            if (rate_hi)
-              rate_hi[i] = hi;
-            have_prev = 1;
-            prev_r = r;
-            prev_off[0] = need_prof ? lo - r : NAN;
-            prev_off[1] = need_prof ? hi - r : NAN;
-            prev_st = st;
-          }
-          continue;
-        }
       }
       rc = tf_growth_geom(o, y + st, w, miss[st + w] - miss[st], cw, Yk, T,
                           want, have_prev ? prev_r : 0.0, hint, &Q, cur);
