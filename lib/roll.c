@@ -77,8 +77,7 @@ static int w21_status(const twofold_fit_options *o, const double *yw,
  * 2(2Y - K) / (D + S) (D >= 0), S = sqrt(4 Y^2 - 3 D^2), written so that
  * nothing cancels; 0 < K < 2Y once the separation checks have passed.
  * The variance of k there, S K (2Y - K) / (Y^2 (Y + S)), gives the
- * standard error without waiting for q.  The weights a_k of k = 0, 1, 2
- * at the estimate are scaled so that the largest is 1.
+ * standard error without waiting for q.
  *
  * The profile-interval ends solve l(xhat) - l(xhat + d) = cc.  Each
  * starts from the series inversion described in fit_w21; Halley steps on
@@ -86,15 +85,19 @@ static int w21_status(const twofold_fit_options *o, const double *yw,
  * is below 1e-5 of the Wald half-width, which leaves an error of the
  * order of the cube of that step (for the benchmark districts one exact
  * step per end, as the start is already that close).  Each exact step
- * costs one expm1 and one log1p: G(xhat + d) - G(xhat) = log1p(e (a1 +
- * a2 (e + 2)) / (a0 + a1 + a2)), e = expm1(d). */
+ * costs one expm1 and one log1p: G(xhat + d) - G(xhat) = log1p(e (p1 +
+ * p2 (e + 2))), e = expm1(d), p_k the probabilities of k at the
+ * estimate. */
 typedef struct {
-  double Y, K, a0, a1, a2, is0;
+  double Y, K, p0, p1, p2;
 } w21_t;
 
 /* The interval ends as offsets d[0] < 0 < d[1] in x, from the starts in
  * d; both sides step together (their chains of dependent operations then
- * overlap).  Returns 0, or -1 on failure. */
+ * overlap).  With v = e^d the weights of k are p_k v^k, W their sum, so
+ * W l'(d) = g = K W - Y (w1 + 2 w2) and W^2 l''(d) = -Y N, N = p0 w1 +
+ * 4 p0 w2 + w1 w2: one division per step.  Returns 0, or -1 on
+ * failure. */
 static int w21_ends(const w21_t *p, double cc, double *d, double scale) {
   int todo[2] = {1, 1};
   for (int it = 0; it < 60; it++) {
@@ -103,19 +106,18 @@ static int w21_ends(const w21_t *p, double cc, double *d, double scale) {
         continue;
       double sd = s ? 1.0 : -1.0, x = d[s];
       double e = expm1(x);
-      double dG = log1p(e * (p->a1 + p->a2 * (e + 2.0)) * p->is0);
-      double f = p->K * x - p->Y * dG + cc;
-      double e1 = 1.0 + e, w1 = p->a1 * e1, w2 = p->a2 * e1 * e1;
-      double iW = 1.0 / (p->a0 + w1 + w2);
-      double m = (w1 + 2.0 * w2) * iW;
-      double h = p->Y * (p->a0 * w1 + 4.0 * p->a0 * w2 + w1 * w2) * iW * iW;
-      double d1 = p->K - p->Y * m;
-      if (!(sd * d1 < 0.0) || !isfinite(f) || !isfinite(h))
+      double f = p->K * x - p->Y * log1p(e * (p->p1 + p->p2 * (e + 2.0))) +
+                 cc;
+      double v = 1.0 + e, w1 = p->p1 * v, w2 = p->p2 * v * v;
+      double W = p->p0 + w1 + w2;
+      double g = p->K * W - p->Y * (w1 + 2.0 * w2);
+      double N = p->Y * (p->p0 * (w1 + 4.0 * w2) + w1 * w2);
+      if (!(sd * g < 0.0) || !isfinite(f) || !isfinite(N))
         return -1;
-      /* Halley, or Newton where Halley's step would be more than twice
-       * Newton's (den < d1^2) */
-      double den = 2.0 * d1 * d1 + f * h; /* f'' = -h */
-      double dx = den >= d1 * d1 ? -2.0 * f * d1 / den : -f / d1;
+      /* Halley, dx = -2 f l' / (2 l'^2 - f l''), or Newton, dx = -f /
+       * l', where Halley's step would be more than twice Newton's */
+      double den = 2.0 * g * g + f * N;
+      double dx = den >= g * g ? -2.0 * f * g * W / den : -f * W / g;
       if (sd * (x + dx) <= 0.0)
         dx = -0.5 * x; /* stay on this side */
       d[s] = x + dx;
@@ -133,30 +135,22 @@ static int w21_ends(const w21_t *p, double cc, double *d, double scale) {
  * (profile if prof, else Wald) in *lo, *hi.  hint: the previous window's
  * interval offsets (NULL or NaN if none), the start should the series
  * one fail.  Returns 0, or 1 when the general path should fit the
- * window. */
+ * window.
+ *
+ * At the estimate the probabilities of k = 0, 1, 2 are, with J = 2Y - K,
+ * p0 = J (S - D) / Z, p1 = 2 K J / Z, p2 = K (S + D) / Z, Z = 2Y (Y + S),
+ * and (S - D)(S + D) = 4 K J gives whichever of S -+ D would cancel; q =
+ * p2 / p1 = p1 / p0, and the variance of k is p1 S / Y. */
 static int fit_w21(double Y, double K, const tf_quant *Q, int prof,
                    const double *hint, double *r, double *lo, double *hi) {
-  w21_t p;
-  double D = K - Y;
+  double D = K - Y, J = Y - D;
   double S = sqrt(4.0 * Y * Y - 3.0 * D * D);
-  /* the variance of k at the estimate, s (1 - c^2) / (1 + s) with c =
-   * D / Y, s = S / Y (from the mean c of k - 1 and its quadratic) */
-  double V = S * K * (Y - D) / (Y * Y * (Y + S));
-  double h = 49.0 * Y * V;
-  double x;
-  if (D >= 0.0) {
-    double iq = 2.0 * (Y - D) / (D + S);
-    p.a0 = iq * iq;
-    p.a1 = iq;
-    p.a2 = 1.0;
-    x = -log(iq);
-  } else {
-    double q = 2.0 * K / (S - D);
-    p.a0 = 1.0;
-    p.a1 = q;
-    p.a2 = q * q;
-    x = log(q);
-  }
+  double iZ = 1.0 / (2.0 * Y * (Y + S));
+  double p1 = 2.0 * K * J * iZ;
+  double h = 49.0 * p1 * S; /* 49 Y V */
+  double A = S + fabs(D);  /* S + D or S - D, whichever has no cancellation */
+  double q = D >= 0.0 ? A / (2.0 * J) : 2.0 * K / A;
+  double x = log(q);
   if (!isfinite(x) || !(h > 0.0) || !isfinite(h))
     return 1;
   double rh = x / 7.0, se = 1.0 / sqrt(h), st = Q->z * se;
@@ -166,37 +160,38 @@ static int fit_w21(double Y, double K, const tf_quant *Q, int prof,
     *hi = rh + st;
     return 0;
   }
+  double B = 4.0 * K * J / A; /* the other of S -+ D */
+  double smd = D >= 0.0 ? B : A, spd = D >= 0.0 ? A : B;
+  w21_t p = {Y, K, J * smd * iZ, p1, K * spd * iZ};
   /* the start: with G(xhat + d) - G(xhat) = m d + sum_{n>=2} k_n d^n /
-   * n!, k_n the cumulants of k under the weights a_k, the end solves
+   * n!, k_n the cumulants of k at the estimate, the end solves
    * d sqrt(1 + b1 d + b2 d^2 + b3 d^3 + ...) = +-u, u = sqrt(2 cc / (Y
-   * k_2)), b1 = k_3 / (3 k_2), b2 = k_4 / (12 k_2), b3 = k_5 / (60 k_2),
-   * inverted as a power series in u to the fourth order.  The cumulants
-   * come from the moments of k - 1, whose odd ones are all m1 = (a2 -
-   * a0) / s0 and even ones m2 = (a2 + a0) / s0. */
-  double s0 = p.a0 + p.a1 + p.a2;
-  double m1 = (p.a2 - p.a0) / s0, m2 = (p.a2 + p.a0) / s0, m1s = m1 * m1;
+   * k_2)) = 7 z se (the Wald half-width in x), b1 = k_3 / (3 k_2),
+   * b2 = k_4 / (12 k_2), b3 = k_5 / (60 k_2), inverted as a power series
+   * in u to the fourth order.  The cumulants come from the moments of
+   * k - 1, whose odd ones are all m1 = p2 - p0 and even ones m2 = p2 +
+   * p0. */
+  double m1 = p.p2 - p.p0, m2 = p.p2 + p.p0, m1s = m1 * m1;
   double k3 = m1 * (1.0 - 3.0 * m2 + 2.0 * m1s);
   double k4 = m2 - 4.0 * m1s - 3.0 * m2 * m2 + 12.0 * m2 * m1s -
               6.0 * m1s * m1s;
   double k5 = m1 * (1.0 - 15.0 * m2 + 20.0 * m1s + 30.0 * m2 * m2 -
                     60.0 * m2 * m1s + 24.0 * m1s * m1s);
-  double iv = 1.0 / V;
-  double b1 = k3 * iv / 3.0, b2 = k4 * iv / 12.0, b3 = k5 * iv / 60.0;
+  double iv = 49.0 * Y * se * se; /* 1 / k_2 */
+  double b1 = k3 * iv * (1.0 / 3.0), b2 = k4 * iv * (1.0 / 12.0);
+  double b3 = k5 * iv * (1.0 / 60.0);
   double be1 = 0.5 * b1, be2 = 0.5 * b2 - 0.125 * b1 * b1;
-  double be3 = 0.5 * b3 - 0.25 * b1 * b2 + b1 * b1 * b1 / 16.0;
+  double be3 = 0.5 * b3 - 0.25 * b1 * b2 + 0.0625 * b1 * b1 * b1;
   double c2 = -be1, c3 = 2.0 * be1 * be1 - be2;
   double c4 = -5.0 * be1 * be1 * be1 + 5.0 * be1 * be2 - be3;
-  p.Y = Y;
-  p.K = K;
-  p.is0 = 1.0 / s0;
-  double u = sqrt(2.0 * Q->c / (Y * V));
-  double sc = 7.0 * st + 1e-300;
+  double u = 7.0 * st;
+  double sc = u + 1e-300;
   double h0 = -u * (1.0 - u * (c2 - u * (c3 - u * c4)));
   double h1 = u * (1.0 + u * (c2 + u * (c3 + u * c4)));
   if (!(h0 < 0.0 && h0 > -2.0 * u && h1 > 0.0 && h1 < 2.0 * u)) {
     /* the previous window's offsets, or the Wald ends */
-    h0 = -7.0 * st;
-    h1 = 7.0 * st;
+    h0 = -u;
+    h1 = u;
     if (hint && hint[0] < 0.0 && hint[1] > 0.0) {
       h0 = 7.0 * hint[0];
       h1 = 7.0 * hint[1];
