@@ -26,8 +26,9 @@
  * adds 0); their class power sums skip the missing days, so each class
  * is its own group (one exponential per evaluation still).  Windows with
  * offsets, and NB2 windows, use the general fit (O(w) per iteration).
- * Every window starts from the previous day's estimate (NB2: also its Cox-Reid adjustment of theta),
- * and the interval quantiles are computed once per call.
+ * Every window starts from the previous day's estimate (NB2: also its
+ * Cox-Reid adjustment of theta), and the interval quantiles are computed
+ * once per call.
  */
 #include "growth_internal.h"
 
