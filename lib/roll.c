@@ -294,8 +294,10 @@ int twofold_growth_roll(const twofold_fit_options *o, const double *y,
   double prev_r = 0.0, prev_off[2] = {NAN, NAN};
   size_t prev_st = 0;
   int need_prof = kind != TWOFOLD_INTERVAL_WALD;
+  /* the closed-form 21-day path; with fewer iterations allowed than by
+   * default, the general path decides whether a window's fit converges */
   int lean = fast && o->model == TWOFOLD_MODEL_POISSON && o->weekday &&
-             w == 21;
+             w == 21 && o->max_iter >= 50;
   for (size_t i = 0; i < n; i++) {
     long long s = align == TWOFOLD_ALIGN_TRAILING
                       ? (long long)i - (long long)w + 1
