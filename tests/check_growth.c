@@ -448,6 +448,86 @@ START_TEST(roll_equals_fit) {
 }
 END_TEST
 
+/* Rolling 21-day windows across the edge cases, against single fits of
+ * the same windows (the rolling Poisson fit of complete 21-day windows
+ * with weekday effects has a path of its own; this is its check): all
+ * zeros, too few events, a weekday without events, zeros then events only
+ * on the last day of each weekday, events only on the first days then
+ * zeros, a missing day, large counts, steep growth and decline, and
+ * small counts (few events per window, where the interval ends are
+ * furthest from their quadratic start).  The statuses are the same, the
+ * estimates and intervals agree as in roll_vs_fit_shape. */
+START_TEST(roll_edges_equal_fit) {
+  enum { N = 330 };
+  double y[N];
+  int seen[4] = {0, 0, 0, 0}; /* OK, EZERO, EFEWEVENTS, ESEPARATION */
+  make_series(y, N, 30, 0.0, 3);
+  for (size_t t = 0; t < N; t++) {
+    double tt = (double)t;
+    if (t < 30)
+      y[t] = 0.0;
+    else if (t < 60)
+      y[t] = t % 5 == 0 ? 1.0 : 0.0;
+    else if (t < 90)
+      y[t] = (t + 2) % 7 == 3 ? 0.0 : y[t];
+    else if (t < 110)
+      y[t] = 0.0;
+    else if (t < 124)
+      y[t] = 5.0 + (double)(t % 3);
+    else if (t < 151)
+      y[t] = 0.0;
+    else if (t < 200)
+      y[t] = floor(y[t] * exp(0.15 * (tt - 151.0)) + 0.5);
+    else if (t < 240)
+      y[t] = floor(2e6 * exp(-0.2 * (tt - 200.0)) * (1.0 + 0.1 * sin(tt)));
+    else if (t < 280)
+      y[t] = floor(1.0 + 2.0 * (1.0 + sin(0.7 * tt)));
+    else if (t < 300)
+      y[t] = floor(3.0 + 0.1 * tt * (1.0 + cos(tt)));
+  }
+  y[165] = NAN;
+  for (int model = 0; model < 2; model++)
+    for (int kind = 0; kind < 4; kind++) {
+      twofold_fit_options *o = opts(model, 1);
+      ck_assert_int_eq(twofold_fit_options_set_interval(o, kind), 0);
+      double rate[N], lo[N], hi[N];
+      int st[N];
+      ck_assert_int_eq(twofold_growth_roll(o, y, NULL, N, 3, 21,
+                                           TWOFOLD_ALIGN_TRAILING, rate, lo,
+                                           hi, st),
+                       0);
+      twofold_fit *f;
+      ck_assert_int_eq(twofold_fit_new(&f), 0);
+      for (size_t i = 20; i < N; i++) {
+        size_t s = i - 20;
+        int fwd = 1 + (int)((2 + s) % 7);
+        int rc = twofold_growth_fit(f, o, y + s, NULL, 21, fwd);
+        ck_assert_msg(rc == st[i], "day %zu: roll status %d fit %d", i,
+                      st[i], rc);
+        seen[0] += rc == 0;
+        seen[1] += rc == TWOFOLD_EZERO;
+        seen[2] += rc == TWOFOLD_EFEWEVENTS;
+        seen[3] += rc == TWOFOLD_ESEPARATION;
+        if (rc)
+          continue;
+        double flo, fhi;
+        twofold_fit_interval(f, TWOFOLD_INTERVAL_DEFAULT, &flo, &fhi);
+        double se = twofold_fit_rate_se(f), r = twofold_fit_rate(f);
+        double tol = 1e-9 * se + 1e-10 * fabs(r) + 1e-13;
+        ck_assert_msg(fabs(rate[i] - r) <= tol && fabs(lo[i] - flo) <= tol &&
+                          fabs(hi[i] - fhi) <= tol,
+                      "day %zu model %d kind %d: roll %.15g [%.15g, %.15g] "
+                      "fit %.15g [%.15g, %.15g]",
+                      i, model, kind, rate[i], lo[i], hi[i], r, flo, fhi);
+      }
+      twofold_fit_free(f);
+      twofold_fit_options_free(o);
+    }
+  for (int k = 0; k < 4; k++)
+    ck_assert_int_gt(seen[k], 0);
+}
+END_TEST
+
 START_TEST(roll_arguments) {
   double y[10] = {1, 2, 3, 4, 5, 6, 7, 8, 9, 10}, r[10];
   int st[10];
@@ -484,6 +564,7 @@ Suite *growth_suite(void) {
   tcase_add_test(tc, doubling_mapping);
   tcase_add_test(tc, nine_day_doubling);
   tcase_add_test(tc, roll_equals_fit);
+  tcase_add_test(tc, roll_edges_equal_fit);
   tcase_add_test(tc, roll_arguments);
   suite_add_tcase(s, tc);
   return s;
