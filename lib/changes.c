@@ -495,6 +495,8 @@ static int backward(twofold_changes *ch) {
     double am = -INFINITY, as = 0; /* running sum e^am * as */
     size_t run = 0, e = t;
     double b = d->rmean, bprev = NAN;
+    tf_psum ps; /* JUMP: the power sums of the segments starting at t */
+    tf_psum_init(&ps, t, b);
     ch->off[t] = ch->ncache;
     for (; e < n; e++) {
       size_t L = e - t + 1;
@@ -508,7 +510,7 @@ static int backward(twofold_changes *ch) {
           double b1 = b;
           if (isfinite(bprev))
             b = b + (b - bprev);
-          lp = tf_seg_jump(d, t, e, &b, &v, NULL);
+          lp = tf_seg_jump_ps(d, &ps, e, &b, &v, NULL);
           bprev = b1;
         }
       }
