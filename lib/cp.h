@@ -90,13 +90,14 @@ void tf_esums(const tf_cpdata *d, size_t s, size_t e, double c, double b,
  * The series is cut at the first k with rho^k / k! e^{2 rho} < 2^-56, a
  * bound on the remainder relative to E_j; tf_psum_eval refuses when that
  * needs more terms than stored or rho > 1 (then re-anchor).  With rho <= 1
- * an alternating series loses at most 3 bits to cancellation, so E_j is
- * within about 1e-15 relative of the direct sum (tests/check_psum.c).
+ * an alternating series loses at most 3 bits to cancellation; E_j is
+ * within 1e-14 (1 + |b| umax) relative of the direct sum, the rounding of
+ * the sums and the conditioning of e^{b u} (tests/check_psum.c).
  * Adding a day costs O(TF_PSUM_N) flops and no exponential (e^{bref u} by
  * a running product, refreshed by exp every 32 days); re-anchoring is a
  * direct O(L) pass.  Nothing here depends on the segment kind: only the
  * weekday weights and missing days of d are read. */
-#define TF_PSUM_N 28
+#define TF_PSUM_N 22
 #define TF_PSUM_NMOM 9 /* E_0..E_8 at most */
 #define TF_PSUM_SCALE 64.0
 typedef struct tf_psum {

@@ -345,8 +345,14 @@ static const double psum_rmax[TF_PSUM_N] = {
     4.633807e-03, 1.315366e-02, 2.919512e-02, 5.487567e-02, 9.167388e-02,
     1.404140e-01, 2.013630e-01, 2.743658e-01, 3.589766e-01, 4.545683e-01,
     5.604160e-01, 6.757565e-01, 7.998281e-01, 9.318959e-01, 1.071267e+00,
-    1.217298e+00, 1.369397e+00, 1.527024e+00, 1.689692e+00, 1.856955e+00,
-    2.028416e+00, 2.203712e+00, 2.382521e+00};
+    1.217298e+00, 1.369397e+00};
+/* the same for a remainder below 1e-10 (first Newton steps) */
+static const double psum_rmax_lo[TF_PSUM_N] = {
+    1.000000e-10, 1.414194e-05, 8.429588e-04, 6.974904e-03, 2.578440e-02,
+    6.315572e-02, 1.216880e-01, 2.012958e-01, 3.003668e-01, 4.166634e-01,
+    5.478522e-01, 6.917620e-01, 8.464827e-01, 1.010382e+00, 1.182089e+00,
+    1.360454e+00, 1.544524e+00, 1.733502e+00, 1.926723e+00, 2.123627e+00,
+    2.323746e+00, 2.526683e+00};
 /* 1/k! */
 static const double psum_ifact[TF_PSUM_N] = {
     1, 1, 0.5,
@@ -356,9 +362,7 @@ static const double psum_ifact[TF_PSUM_N] = {
     2.08767569878681e-09, 1.6059043836821613e-10, 1.1470745597729725e-11,
     7.6471637318198164e-13, 4.7794773323873853e-14, 2.8114572543455206e-15,
     1.5619206968586225e-16, 8.2206352466243295e-18, 4.1103176233121648e-19,
-    1.9572941063391263e-20, 8.8967913924505741e-22, 3.8681701706306841e-23,
-    1.6117375710961184e-24, 6.4469502843844736e-26, 2.4795962632247976e-27,
-    9.183689863795546e-29};
+    1.9572941063391263e-20};
 
 static void psum_clear(tf_psum *p, double bref) {
   p->next = p->s;
@@ -424,7 +428,8 @@ void tf_psum_reanchor(tf_psum *p, const tf_cpdata *d, double bref) {
     tf_psum_extend(p, d, next - 1);
 }
 
-int tf_psum_eval(const tf_psum *p, double b, int nmom, double *E) {
+static int psum_eval(const tf_psum *p, double b, int nmom, double *E,
+                     const double *rmax) {
   if (p->bad || nmom < 1 || nmom > TF_PSUM_NMOM)
     return -1;
   double del = b - p->bref, rho = fabs(del) * p->umax;
@@ -434,7 +439,7 @@ int tf_psum_eval(const tf_psum *p, double b, int nmom, double *E) {
   int lo = 0, hi = TF_PSUM_N - 1;
   while (lo < hi) {
     int mid = (lo + hi) / 2;
-    if (rho <= psum_rmax[mid])
+    if (rho <= rmax[mid])
       hi = mid;
     else
       lo = mid + 1;
@@ -478,14 +483,30 @@ int tf_psum_eval(const tf_psum *p, double b, int nmom, double *E) {
   } else {
     if (n > TF_PSUM_N - TF_PSUM_NMOM + 1)
       return 1;
-    for (int j = 0; j < TF_PSUM_NMOM; j++)
-      acc[j] = 0;
+    double s0 = 0, s1 = 0, s2 = 0, s3 = 0, s4 = 0, s5 = 0, s6 = 0, s7 = 0,
+           s8 = 0;
     for (int k = n; k-- > 0;) {
       const double *A = p->A + k;
       double ck = c[k];
-      for (int j = 0; j < TF_PSUM_NMOM; j++)
-        acc[j] += ck * A[j];
+      s0 += ck * A[0];
+      s1 += ck * A[1];
+      s2 += ck * A[2];
+      s3 += ck * A[3];
+      s4 += ck * A[4];
+      s5 += ck * A[5];
+      s6 += ck * A[6];
+      s7 += ck * A[7];
+      s8 += ck * A[8];
     }
+    acc[0] = s0;
+    acc[1] = s1;
+    acc[2] = s2;
+    acc[3] = s3;
+    acc[4] = s4;
+    acc[5] = s5;
+    acc[6] = s6;
+    acc[7] = s7;
+    acc[8] = s8;
   }
   double sc = 1;
   for (int j = 0; j < nmom; j++) {
@@ -493,6 +514,10 @@ int tf_psum_eval(const tf_psum *p, double b, int nmom, double *E) {
     sc *= TF_PSUM_SCALE;
   }
   return 0;
+}
+
+int tf_psum_eval(const tf_psum *p, double b, int nmom, double *E) {
+  return psum_eval(p, b, nmom, E, psum_rmax);
 }
 
 /* ---- segment marginals (METHODS B5) ----------------------------------- */
@@ -642,8 +667,23 @@ impossible:
   return -INFINITY;
 }
 
-/* tf_seg_jump by Newton on f(b) of B5 with the moments from the power sums
- * of p.  About the centre c = s + h of [s, e] (u = t - s about the start):
+/* lgamma(x) - (x - 1/2) log x for x >= 10: -x + log sqrt(2 pi) + the
+ * Stirling series to x^-11 (absolute error below 1e-14; Abramowitz &
+ * Stegun 1964, 6.1.40-41). */
+static double lgamma_rest(double x) {
+  double ix = 1 / x, i2 = ix * ix;
+  double ser =
+      ix * (1.0 / 12 +
+            i2 * (-1.0 / 360 +
+                  i2 * (1.0 / 1260 +
+                        i2 * (-1.0 / 1680 +
+                              i2 * (1.0 / 1188 - i2 * 691.0 / 360360)))));
+  return -x + 0.91893853320467274178 + ser;
+}
+
+/* tf_seg_jump by Halley steps on f(b) of B5 with the moments from the power
+ * sums of p.  About the centre c = s + h of [s, e] (u = t - s about the
+ * start):
  *   E0c = e^{-b h} E0,  m1 = E1/E0 - h,  V = E2/E0 - (E1/E0)^2,
  *   m2 = V + m1^2,  k3 = the third central moment (from E3);
  * with x = E0c/phi, r = x/(beta + x), q = 1 - r and ap = alpha + Y/phi:
@@ -651,12 +691,17 @@ impossible:
  *   f''  = -ap T - 1/sd^2,  T = r^2 V + r q m2,
  *   f''' = -ap dT/db,  dT/db = 2 r r1 V + r^2 k3 + r1 (q - r) m2
  *                              + r q (k3 + 2 m1 V),  r1 = dr/db = r q m1.
- * Converged when the Newton step is below 1e-9 (1 + |b|), or when the
- * step times the span is below 1e-6 and the Newton decrement times it is
- * below 1e-14: the step is then taken without another evaluation, the
- * maximum from the quadratic model and the curvature moved to the new
- * point by f'''.  No step halving: when |f'| fails to fall, or anything
- * leaves range, tf_seg_jump takes over from the same start. */
+ * The first evaluation, from the warm start, only sets the direction: its
+ * sums are cut at a remainder of 1e-10.  Converged when the step s times
+ * the span L is below 2e-5 and lam2 (s L)^2 < 1e-9, lam2 = f'^2/(-f'')
+ * (the Newton decrement): the step is taken without another evaluation,
+ * the maximum from the cubic model (error about f'''' s^4 / 24, with
+ * f'''' about f'' L^2 / 10: below 1e-11) and the curvature moved to the
+ * new point by f''' (relative error about (s L)^2 / 20 < 1e-10).  No step
+ * halving: when |f'| fails to fall, or anything leaves range, tf_seg_jump
+ * takes over from the same start.  For ap >= 10 the last terms are
+ * gathered as ap log(ap / (beta + x)) - log sqrt(ap (-f'')) with the
+ * Stirling series (two logarithms). */
 double tf_seg_jump_ps(const tf_cpdata *d, tf_psum *p, size_t e, double *bio,
                       double *bvar, double *lvl) {
   size_t s = p->s;
@@ -669,12 +714,14 @@ double tf_seg_jump_ps(const tf_cpdata *d, tf_psum *p, size_t e, double *bio,
   double isd = 1 / d->rsd, isd2 = isd * isd, S1p = S1 * iphi;
   double span = p->umax + 1;
   double b0 = isfinite(*bio) ? *bio : d->rmean, b = b0, af1p = INFINITY;
+  int coarse = 1;
   for (int it = 0; it < 16; it++) {
     double E[4];
-    int rc = tf_psum_eval(p, b, 4, E);
+    const double *rmax = coarse ? psum_rmax_lo : psum_rmax;
+    int rc = psum_eval(p, b, 4, E, rmax);
     if (rc == 1) {
       tf_psum_reanchor(p, d, b);
-      rc = tf_psum_eval(p, b, 4, E);
+      rc = psum_eval(p, b, 4, E, rmax);
     }
     if (rc != 0 || !(E[0] > 0) || !(E[0] <= DBL_MAX))
       break;
@@ -712,17 +759,27 @@ double tf_seg_jump_ps(const tf_cpdata *d, tf_psum *p, size_t e, double *bio,
     if (!(fabs(a) <= 0.25))
       step = sn;
     double sl = fabs(step) * span, lam2 = -f1 * sn;
-    /* the cubic model from here: the error in f is O(lam2 sl^2), in f2
-     * O(sl^2) relative (the fourth derivative is about f2 span^2) */
-    if (sl < 5e-6 && lam2 * sl * sl < 1e-11) {
-      double lb = log(bx);
-      double f = b * S1p - ap * lb - 0.5 * z * z +
+    if (sl < 2e-5 && lam2 * sl * sl < 1e-9) {
+      if (coarse) { /* close already: the same point with full sums */
+        coarse = 0;
+        continue;
+      }
+      double f = b * S1p - 0.5 * z * z +
                  step * (f1 + step * (0.5 * f2 + step * f3 / 6));
       double f2n = f2 + f3 * step;
       if (!(f2n < 0))
         f2n = f2;
       b += step;
-      double lp = f + d->lvl0 + tf_lgamma(ap) - d->lrsd - 0.5 * log(-f2n);
+      double lp;
+      if (ap >= 10) {
+        /* lgamma(ap) - ap log(bx) - log sqrt(-f2n)
+         *   = ap log(ap / bx) - log sqrt(ap (-f2n)) + lgamma_rest(ap) */
+        lp = f + ap * log(ap * ibx) - 0.5 * log(ap * -f2n) +
+             lgamma_rest(ap) + d->lvl0 - d->lrsd;
+      } else {
+        lp = f - ap * log(bx) + d->lvl0 + tf_lgamma(ap) - d->lrsd -
+             0.5 * log(-f2n);
+      }
       if (!isfinite(lp))
         break;
       *bio = b;
@@ -735,6 +792,7 @@ double tf_seg_jump_ps(const tf_cpdata *d, tf_psum *p, size_t e, double *bio,
     if (!(af1 < af1p) || fabs(step) > 1)
       break;
     af1p = af1;
+    coarse = 0;
     b += step;
   }
   *bio = b0;
