@@ -346,13 +346,14 @@ static const double psum_rmax[TF_PSUM_N] = {
     1.404140e-01, 2.013630e-01, 2.743658e-01, 3.589766e-01, 4.545683e-01,
     5.604160e-01, 6.757565e-01, 7.998281e-01, 9.318959e-01, 1.071267e+00,
     1.217298e+00, 1.369397e+00};
-/* the same for a remainder below 1e-10 (first Newton steps) */
+/* the same for a remainder below 1e-6 (first steps, which only set the
+ * direction) */
 static const double psum_rmax_lo[TF_PSUM_N] = {
-    1.000000e-10, 1.414194e-05, 8.429588e-04, 6.974904e-03, 2.578440e-02,
-    6.315572e-02, 1.216880e-01, 2.012958e-01, 3.003668e-01, 4.166634e-01,
-    5.478522e-01, 6.917620e-01, 8.464827e-01, 1.010382e+00, 1.182089e+00,
-    1.360454e+00, 1.544524e+00, 1.733502e+00, 1.926723e+00, 2.123627e+00,
-    2.323746e+00, 2.526683e+00};
+    9.999980e-07, 1.412218e-03, 1.795499e-02, 6.766432e-02, 1.545229e-01,
+    2.733105e-01, 4.169113e-01, 5.791717e-01, 7.554063e-01, 9.421904e-01,
+    1.137040e+00, 1.338145e+00, 1.544169e+00, 1.754113e+00, 1.967220e+00,
+    2.182909e+00, 2.400726e+00, 2.620315e+00, 2.841392e+00, 3.063728e+00,
+    3.287137e+00, 3.511466e+00};
 /* 1/k! */
 static const double psum_ifact[TF_PSUM_N] = {
     1, 1, 0.5,
@@ -447,19 +448,19 @@ static int psum_eval(const tf_psum *p, double b, int nmom, double *E,
   int n = lo + 1;
   if (n > TF_PSUM_N - (nmom <= 4 ? 4 : TF_PSUM_NMOM) + 1)
     return 1;
-  /* c_k = q^k / k!, the powers by squaring */
-  double c[32], q = del * TF_PSUM_SCALE, q2 = q * q, q4 = q2 * q2,
-                q8 = q4 * q4, q16 = q8 * q8;
+  /* c_k = q^k / k!, the powers by squaring (k < n only) */
+  double c[TF_PSUM_N], q = del * TF_PSUM_SCALE, q2 = q * q, q4 = q2 * q2,
+                       q8 = q4 * q4, q16 = q8 * q8;
   c[0] = 1;
   c[1] = q;
   c[2] = q2;
   c[3] = q2 * q;
-  for (int k = 0; k < 4; k++)
-    c[k + 4] = c[k] * q4;
-  for (int k = 0; k < 8; k++)
-    c[k + 8] = c[k] * q8;
-  for (int k = 0; k < 16 && k + 16 < n; k++)
-    c[k + 16] = c[k] * q16;
+  for (int k = 4; k < n && k < 8; k++)
+    c[k] = c[k - 4] * q4;
+  for (int k = 8; k < n && k < 16; k++)
+    c[k] = c[k - 8] * q8;
+  for (int k = 16; k < n; k++)
+    c[k] = c[k - 16] * q16;
   for (int k = 0; k < n; k++)
     c[k] *= psum_ifact[k];
   /* E_j = SCALE^j sum_k c_k A_{j+k}, smallest terms first; the sums over
@@ -692,7 +693,7 @@ static double lgamma_rest(double x) {
  *   f''' = -ap dT/db,  dT/db = 2 r r1 V + r^2 k3 + r1 (q - r) m2
  *                              + r q (k3 + 2 m1 V),  r1 = dr/db = r q m1.
  * The first evaluation, from the warm start, only sets the direction: its
- * sums are cut at a remainder of 1e-10.  Converged when the step s times
+ * sums are cut at a remainder of 1e-6.  Converged when the step s times
  * the span L is below 2e-5 and lam2 (s L)^2 < 1e-9, lam2 = f'^2/(-f'')
  * (the Newton decrement): the step is taken without another evaluation,
  * the maximum from the cubic model (error about f'''' s^4 / 24, with
