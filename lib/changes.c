@@ -749,7 +749,7 @@ int tf_cp_results(twofold_changes *ch) {
       ch->maplvl[j] = NAN;
     } else if (jump) {
       double b = ch->cb[cidx(ch, s, e)], v, lvl;
-      tf_seg_jump(&ch->d, s, e, &b, &v, &lvl);
+      tf_seg_jump_at(&ch->d, s, e, &b, &v, &lvl);
       ch->mapb[j] = b;
       ch->mapbsd[j] = sqrt(v);
       ch->maplvl[j] = lvl;
@@ -1177,7 +1177,7 @@ int twofold_changes_segment_logml(const twofold_changes *ch, size_t start,
     *logml = tf_seg_level(&ch->d, start, end, NULL);
   } else {
     double b = ch->d.rmean, v;
-    *logml = tf_seg_jump(&ch->d, start, end, &b, &v, NULL);
+    *logml = tf_seg_jump_at(&ch->d, start, end, &b, &v, NULL);
   }
   return 0;
 }

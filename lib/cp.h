@@ -132,6 +132,10 @@ int tf_psum_eval(const tf_psum *p, double b, int nmom, double *E);
  * sums do not apply. */
 double tf_seg_jump_ps(const tf_cpdata *d, tf_psum *p, size_t e, double *b,
                       double *bvar, double *lvl);
+/* tf_seg_jump_ps on fresh sums from s anchored at the start value *b
+ * (O(L)): for single segments, so that they match the recursions. */
+double tf_seg_jump_at(const tf_cpdata *d, size_t s, size_t e, double *b,
+                      double *bvar, double *lvl);
 
 /* LEVEL segment: exact log marginal likelihood (without the per-day
  * constants); *lvl (may be NULL) the posterior mean level. */

@@ -800,6 +800,13 @@ double tf_seg_jump_ps(const tf_cpdata *d, tf_psum *p, size_t e, double *bio,
   return tf_seg_jump(d, s, e, bio, bvar, lvl);
 }
 
+double tf_seg_jump_at(const tf_cpdata *d, size_t s, size_t e, double *b,
+                      double *bvar, double *lvl) {
+  tf_psum p;
+  tf_psum_init(&p, s, isfinite(*b) ? *b : d->rmean);
+  return tf_seg_jump_ps(d, &p, e, b, bvar, lvl);
+}
+
 /* ---- segment-length prior (METHODS A1) -------------------------------- */
 
 /* log P(L > len) for L = min_seg - k + X, X ~ negative binomial (number of
