@@ -15,6 +15,11 @@
  * epsilon times the running sum for 14 consecutive ends; the forward pass,
  * the count distribution, the growth posterior and sampling use the same
  * candidate ends, so all results are those of one (truncated) model.
+ * JUMP segments [t, e] for one start t are evaluated with one set of
+ * incremental power sums (segment.c, tf_psum), grown by a day as e grows,
+ * each warm-started from the modes of [t, e-1] and [t, e-2]; the most
+ * probable segments' fits and twofold_changes_segment_logml use the same
+ * solver on fresh sums.
  */
 #include "cp.h"
 
