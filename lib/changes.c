@@ -15,6 +15,11 @@
  * epsilon times the running sum for 14 consecutive ends; the forward pass,
  * the count distribution, the growth posterior and sampling use the same
  * candidate ends, so all results are those of one (truncated) model.
+ * JUMP segments [t, e] for one start t are evaluated with one set of
+ * incremental power sums (segment.c, tf_psum), grown by a day as e grows,
+ * each warm-started from the modes of [t, e-1] and [t, e-2]; the most
+ * probable segments' fits and twofold_changes_segment_logml use the same
+ * solver on fresh sums.
  */
 #include "cp.h"
 
@@ -495,6 +500,8 @@ static int backward(twofold_changes *ch) {
     double am = -INFINITY, as = 0; /* running sum e^am * as */
     size_t run = 0, e = t;
     double b = d->rmean, bprev = NAN;
+    tf_psum ps; /* JUMP: the power sums of the segments starting at t */
+    tf_psum_init(&ps, t, b);
     ch->off[t] = ch->ncache;
     for (; e < n; e++) {
       size_t L = e - t + 1;
@@ -508,7 +515,7 @@ static int backward(twofold_changes *ch) {
           double b1 = b;
           if (isfinite(bprev))
             b = b + (b - bprev);
-          lp = tf_seg_jump(d, t, e, &b, &v, NULL);
+          lp = tf_seg_jump_ps(d, &ps, e, &b, &v, NULL);
           bprev = b1;
         }
       }
@@ -747,7 +754,7 @@ int tf_cp_results(twofold_changes *ch) {
       ch->maplvl[j] = NAN;
     } else if (jump) {
       double b = ch->cb[cidx(ch, s, e)], v, lvl;
-      tf_seg_jump(&ch->d, s, e, &b, &v, &lvl);
+      tf_seg_jump_at(&ch->d, s, e, &b, &v, &lvl);
       ch->mapb[j] = b;
       ch->mapbsd[j] = sqrt(v);
       ch->maplvl[j] = lvl;
@@ -1175,7 +1182,7 @@ int twofold_changes_segment_logml(const twofold_changes *ch, size_t start,
     *logml = tf_seg_level(&ch->d, start, end, NULL);
   } else {
     double b = ch->d.rmean, v;
-    *logml = tf_seg_jump(&ch->d, start, end, &b, &v, NULL);
+    *logml = tf_seg_jump_at(&ch->d, start, end, &b, &v, NULL);
   }
   return 0;
 }

@@ -79,6 +79,64 @@ static inline double tf_sumty(const tf_cpdata *d, size_t s, size_t e) {
 void tf_esums(const tf_cpdata *d, size_t s, size_t e, double c, double b,
               double *logE0, double *m1, double *m2);
 
+/* Incremental power sums for one segment start (METHODS B3; the Taylor
+ * shift is derived here).  For a reference start s and slope bref, over
+ * the present days t of [s, next) with u = t - s and w_t = wcls of the
+ * day's weekday class,
+ *   A_k = sum_t w_t (u / TF_PSUM_SCALE)^k e^{bref u},  k = 0..TF_PSUM_N-1,
+ * so that for any b near bref (delta = b - bref, rho = |delta| umax)
+ *   E_j(b) = sum_t w_t u^j e^{b u}
+ *          = TF_PSUM_SCALE^j sum_k (TF_PSUM_SCALE delta)^k / k! A_{j+k}.
+ * The series is cut at the first k with rho^k / k! e^{2 rho} < 2^-56, a
+ * bound on the remainder relative to E_j; tf_psum_eval refuses when that
+ * needs more terms than stored or rho > 1 (then re-anchor).  With rho <= 1
+ * an alternating series loses at most 3 bits to cancellation; E_j is
+ * within 1e-14 (1 + |b| umax) relative of the direct sum, the rounding of
+ * the sums and the conditioning of e^{b u} (tests/check_psum.c).
+ * Adding a day costs O(TF_PSUM_N) flops and no exponential (e^{bref u} by
+ * a running product, refreshed by exp every 32 days); re-anchoring is a
+ * direct O(L) pass.  Nothing here depends on the segment kind: only the
+ * weekday weights and missing days of d are read. */
+#define TF_PSUM_N 22
+#define TF_PSUM_NMOM 9 /* E_0..E_8 at most */
+#define TF_PSUM_SCALE 64.0
+typedef struct tf_psum {
+  size_t s;      /* reference start day                              */
+  size_t next;   /* the sums cover days s..next-1                    */
+  size_t np;     /* present days among them                          */
+  double umax;   /* largest u of a present day (0: none)             */
+  double bref;   /* reference slope                                  */
+  double g0, g1; /* e^{bref} = g0 + g1 (g1 the rounding correction)  */
+  double z;      /* e^{bref (next - s)}                              */
+  int bad;       /* sums left double range: unusable                 */
+  double A[TF_PSUM_N];
+} tf_psum;
+
+/* Empty sums starting at day s, reference slope bref. */
+void tf_psum_init(tf_psum *p, size_t s, double bref);
+/* Add the days next..e (nothing when e < next); missing days are
+ * skipped. */
+void tf_psum_extend(tf_psum *p, const tf_cpdata *d, size_t e);
+/* Recompute the sums of the days covered for a new reference slope (O(L),
+ * one exp per 32 days). */
+void tf_psum_reanchor(tf_psum *p, const tf_cpdata *d, double bref);
+/* E[0..nmom-1] = E_j(b) about the reference start, nmom in
+ * 1..TF_PSUM_NMOM.  Returns 0, 1 when b is too far from bref for the
+ * stored terms (re-anchor and call again), or -1 when the sums are
+ * unusable (overflow; the caller takes another method). */
+int tf_psum_eval(const tf_psum *p, double b, int nmom, double *E);
+
+/* JUMP segment [p->s, e] as tf_seg_jump, with the sums of p (extended to
+ * e, re-anchored when needed): same model and result to about 1e-12 in
+ * the log marginal, few exponentials.  Falls back to tf_seg_jump where the
+ * sums do not apply. */
+double tf_seg_jump_ps(const tf_cpdata *d, tf_psum *p, size_t e, double *b,
+                      double *bvar, double *lvl);
+/* tf_seg_jump_ps on fresh sums from s anchored at the start value *b
+ * (O(L)): for single segments, so that they match the recursions. */
+double tf_seg_jump_at(const tf_cpdata *d, size_t s, size_t e, double *b,
+                      double *bvar, double *lvl);
+
 /* LEVEL segment: exact log marginal likelihood (without the per-day
  * constants); *lvl (may be NULL) the posterior mean level. */
 double tf_seg_level(const tf_cpdata *d, size_t s, size_t e, double *lvl);

@@ -16,6 +16,8 @@
  * of the candidates, weighted by their new-segment mass, collapsed to its
  * mean and variance, as the offline recursion does, so without resampling
  * the filter reproduces the offline posterior (tests/check_changes.c).
+ * JUMP candidates keep the power sums of their start (tf_psum), grown by a
+ * day at each update, so an update costs no exponential per past day.
  */
 
 #include <gsl/gsl_sf_psi.h>
@@ -42,6 +44,8 @@ struct twofold_online {
   /* KINK: per candidate the message of its knot level and its fit */
   double *cmm, *cmv;
   tf_kfit *cf;
+  /* JUMP: per candidate the power sums of its start (segment.c) */
+  tf_psum *cps;
   double *sortbuf;
   double lpred;
   char msg[TF_ERRMSG_SIZE];
@@ -60,6 +64,7 @@ void twofold_online_free(twofold_online *on) {
   free(on->cmm);
   free(on->cmv);
   free(on->cf);
+  free(on->cps);
   free(on->sortbuf);
   free(on);
 }
@@ -124,7 +129,7 @@ static double seg_lp(twofold_online *on, size_t i, size_t s, size_t e,
     *v = 0;
     return tf_seg_level(&on->d, s, e, NULL);
   }
-  return tf_seg_jump(&on->d, s, e, b, v, NULL);
+  return tf_seg_jump_ps(&on->d, &on->cps[i], e, b, v, NULL);
 }
 
 /* Candidate i moved to slot out (out <= i), weight included. */
@@ -139,6 +144,8 @@ static void move_candidate(twofold_online *on, size_t out, size_t i) {
     on->cmv[out] = on->cmv[i];
     on->cf[out] = on->cf[i];
   }
+  if (on->cps)
+    on->cps[out] = on->cps[i];
 }
 
 /* The candidates' log weights normalised (exact up to rounding). */
@@ -301,6 +308,8 @@ static int add_day(twofold_online *on, double y) {
       on->cmv[0] = gsl_sf_psi_1(d->alpha);
       on->cf[0] = (tf_kfit){on->cmm[0], d->rmean, NAN, NAN, 0, 0, 0};
     }
+    if (on->cps)
+      tf_psum_init(&on->cps[0], 0, d->rmean);
     double l0 = seg_lp(on, 0, 0, 0, &b, &v);
     on->nc = 1;
     on->cs[0] = 0;
@@ -366,6 +375,8 @@ static int add_day(twofold_online *on, double y) {
     on->cmv[k] = isnan(nv) ? on->cmv[0] : nv;
     on->cf[k] = (tf_kfit){on->cmm[k], d->rmean, NAN, NAN, 0, 0, 0};
   }
+  if (on->cps)
+    tf_psum_init(&on->cps[k], t, d->rmean);
   double l1 = seg_lp(on, k, t, t, &b, &v);
   on->nc++;
   on->cs[k] = t;
@@ -423,8 +434,11 @@ int twofold_online_new(const twofold_cp_options *o, const double *history,
     on->cmv = malloc(mc * sizeof(double));
     on->cf = malloc(mc * sizeof(tf_kfit));
   }
+  if (opt.kind == TWOFOLD_CP_JUMP)
+    on->cps = malloc(mc * sizeof(tf_psum));
   if (!on->cs || !on->cw || !on->clp || !on->cb || !on->cv || !on->sortbuf ||
-      (opt.kind == TWOFOLD_CP_KINK && (!on->cmm || !on->cmv || !on->cf))) {
+      (opt.kind == TWOFOLD_CP_KINK && (!on->cmm || !on->cmv || !on->cf)) ||
+      (opt.kind == TWOFOLD_CP_JUMP && !on->cps)) {
     twofold_online_free(on);
     return TWOFOLD_ENOMEM;
   }

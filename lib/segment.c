@@ -14,6 +14,15 @@
  * 1974, Biometrika 61:439-447).  lambda ~ Gamma(alpha, beta) is integrated
  * out exactly; b ~ N(mean, sd^2) by a one-dimensional Laplace
  * approximation (Tierney & Kadane 1986, JASA 81:82-86).
+ *
+ * Incremental power sums (tf_psum, cp.h): for a fixed segment start the
+ * sums sum w_t u^k e^{bref u}, k < TF_PSUM_N, grow by one day in O(k)
+ * flops, and give E_j(b) for b near bref by a Taylor shift with a bounded
+ * remainder; tf_seg_jump_ps solves the JUMP marginal's mode with them
+ * (Halley steps, the cubic model at the last one), with no exponential
+ * per day and one per evaluation.  The step-halving solver tf_seg_jump
+ * on the closed-form class sums stays as the general method and the
+ * fallback.
  */
 #include "cp.h"
 
@@ -322,6 +331,196 @@ direct:
     *m2 = E2 / E0;
 }
 
+/* ---- incremental power sums (cp.h: tf_psum) --------------------------- */
+
+/* The Taylor shift keeps the terms k = 0..n-1 with n the least such that
+ * rho^n / n! e^{2 rho} < 2^-56, a bound on the remainder relative to E_j
+ * (each omitted term is at most rho^k / k! A_j SCALE^j and
+ * E_j >= e^{-rho} A_j SCALE^j); psum_rmax[n-1] is the largest rho for n
+ * terms.  rho is capped at PSUM_RHO, where a series of alternating sign
+ * loses at most a factor e^{2 rho} < 7.4 (3 bits) to cancellation. */
+#define PSUM_RHO 1.0
+static const double psum_rmax[TF_PSUM_N] = {
+    1.387779e-17, 5.268356e-09, 4.366726e-06, 1.350839e-04, 1.106899e-03,
+    4.633807e-03, 1.315366e-02, 2.919512e-02, 5.487567e-02, 9.167388e-02,
+    1.404140e-01, 2.013630e-01, 2.743658e-01, 3.589766e-01, 4.545683e-01,
+    5.604160e-01, 6.757565e-01, 7.998281e-01, 9.318959e-01, 1.071267e+00,
+    1.217298e+00, 1.369397e+00};
+/* the same for a remainder below 1e-6 (first steps, which only set the
+ * direction) */
+static const double psum_rmax_lo[TF_PSUM_N] = {
+    9.999980e-07, 1.412218e-03, 1.795499e-02, 6.766432e-02, 1.545229e-01,
+    2.733105e-01, 4.169113e-01, 5.791717e-01, 7.554063e-01, 9.421904e-01,
+    1.137040e+00, 1.338145e+00, 1.544169e+00, 1.754113e+00, 1.967220e+00,
+    2.182909e+00, 2.400726e+00, 2.620315e+00, 2.841392e+00, 3.063728e+00,
+    3.287137e+00, 3.511466e+00};
+/* 1/k! */
+static const double psum_ifact[TF_PSUM_N] = {
+    1, 1, 0.5,
+    0.16666666666666666, 0.041666666666666664, 0.0083333333333333332,
+    0.0013888888888888889, 0.00019841269841269841, 2.4801587301587302e-05,
+    2.7557319223985893e-06, 2.7557319223985888e-07, 2.505210838544172e-08,
+    2.08767569878681e-09, 1.6059043836821613e-10, 1.1470745597729725e-11,
+    7.6471637318198164e-13, 4.7794773323873853e-14, 2.8114572543455206e-15,
+    1.5619206968586225e-16, 8.2206352466243295e-18, 4.1103176233121648e-19,
+    1.9572941063391263e-20};
+
+static void psum_clear(tf_psum *p, double bref) {
+  p->next = p->s;
+  p->np = 0;
+  p->umax = 0;
+  p->bref = bref;
+  /* e^{bref} = g0 e^{bref - log g0} = g0 (1 + (bref - log g0)) */
+  p->g0 = exp(bref);
+  p->g1 = p->g0 * (bref - log(p->g0));
+  p->z = 1;
+  p->bad = !(isfinite(p->g0) && p->g0 > 0 && isfinite(p->g1));
+  for (int k = 0; k < TF_PSUM_N; k++)
+    p->A[k] = 0;
+}
+
+void tf_psum_init(tf_psum *p, size_t s, double bref) {
+  p->s = s;
+  psum_clear(p, bref);
+}
+
+void tf_psum_extend(tf_psum *p, const tf_cpdata *d, size_t e) {
+  if (e < p->next)
+    return;
+  const double iS = 1 / TF_PSUM_SCALE;
+  double z = p->z, g0 = p->g0, g1 = p->g1;
+  int cl = tf_cls(d, p->next);
+  for (size_t t = p->next; t <= e; t++) {
+    size_t u = t - p->s;
+    if ((u & 31) == 0) /* refresh: the running product drifts ~1 ulp a day */
+      z = exp(p->bref * (double)u);
+    if (!tf_isnan(d->y[t])) {
+      /* the powers by squaring (short dependency chains) */
+      double v = (double)u * iS, v2 = v * v, v4 = v2 * v2, v8 = v4 * v4;
+      double w[TF_PSUM_N];
+      w[0] = d->wcls[cl] * z;
+      w[1] = w[0] * v;
+      w[2] = w[0] * v2;
+      w[3] = w[1] * v2;
+      for (int k = 0; k < 4; k++)
+        w[k + 4] = w[k] * v4;
+      for (int k = 0; k < 8; k++)
+        w[k + 8] = w[k] * v8;
+      for (int k = 16; k < TF_PSUM_N; k++)
+        w[k] = w[k - 8] * v8;
+      for (int k = 0; k < TF_PSUM_N; k++)
+        p->A[k] += w[k];
+      p->np++;
+      p->umax = (double)u;
+    }
+    z = z * g0 + z * g1;
+    cl = cl == 6 ? 0 : cl + 1;
+  }
+  p->z = z;
+  p->next = e + 1;
+  if (!(p->A[0] <= DBL_MAX && p->A[TF_PSUM_N - 1] <= DBL_MAX))
+    p->bad = 1;
+}
+
+void tf_psum_reanchor(tf_psum *p, const tf_cpdata *d, double bref) {
+  size_t next = p->next;
+  psum_clear(p, bref);
+  if (next > p->s && !p->bad)
+    tf_psum_extend(p, d, next - 1);
+}
+
+static int psum_eval(const tf_psum *p, double b, int nmom, double *E,
+                     const double *rmax) {
+  if (p->bad || nmom < 1 || nmom > TF_PSUM_NMOM)
+    return -1;
+  double del = b - p->bref, rho = fabs(del) * p->umax;
+  if (!(rho <= PSUM_RHO))
+    return 1; /* also for NaN */
+  /* n - 1 = the first index with rho <= rmax, by bisection */
+  int lo = 0, hi = TF_PSUM_N - 1;
+  while (lo < hi) {
+    int mid = (lo + hi) / 2;
+    if (rho <= rmax[mid])
+      hi = mid;
+    else
+      lo = mid + 1;
+  }
+  int n = lo + 1;
+  if (n > TF_PSUM_N - (nmom <= 4 ? 4 : TF_PSUM_NMOM) + 1)
+    return 1;
+  /* c_k = q^k / k!, the powers by squaring (k < n only) */
+  double c[TF_PSUM_N], q = del * TF_PSUM_SCALE, q2 = q * q, q4 = q2 * q2,
+                       q8 = q4 * q4, q16 = q8 * q8;
+  c[0] = 1;
+  c[1] = q;
+  c[2] = q2;
+  c[3] = q2 * q;
+  for (int k = 4; k < n && k < 8; k++)
+    c[k] = c[k - 4] * q4;
+  for (int k = 8; k < n && k < 16; k++)
+    c[k] = c[k - 8] * q8;
+  for (int k = 16; k < n; k++)
+    c[k] = c[k - 16] * q16;
+  for (int k = 0; k < n; k++)
+    c[k] *= psum_ifact[k];
+  /* E_j = SCALE^j sum_k c_k A_{j+k}, smallest terms first; the sums over
+   * j are independent chains, 4 or TF_PSUM_NMOM of them (fixed counts
+   * the compiler keeps in registers; the extra ones are dropped) */
+  double acc[TF_PSUM_NMOM];
+  if (nmom <= 4) {
+    double s0 = 0, s1 = 0, s2 = 0, s3 = 0;
+    for (int k = n; k-- > 0;) {
+      const double *A = p->A + k;
+      double ck = c[k];
+      s0 += ck * A[0];
+      s1 += ck * A[1];
+      s2 += ck * A[2];
+      s3 += ck * A[3];
+    }
+    acc[0] = s0;
+    acc[1] = s1;
+    acc[2] = s2;
+    acc[3] = s3;
+  } else {
+    if (n > TF_PSUM_N - TF_PSUM_NMOM + 1)
+      return 1;
+    double s0 = 0, s1 = 0, s2 = 0, s3 = 0, s4 = 0, s5 = 0, s6 = 0, s7 = 0,
+           s8 = 0;
+    for (int k = n; k-- > 0;) {
+      const double *A = p->A + k;
+      double ck = c[k];
+      s0 += ck * A[0];
+      s1 += ck * A[1];
+      s2 += ck * A[2];
+      s3 += ck * A[3];
+      s4 += ck * A[4];
+      s5 += ck * A[5];
+      s6 += ck * A[6];
+      s7 += ck * A[7];
+      s8 += ck * A[8];
+    }
+    acc[0] = s0;
+    acc[1] = s1;
+    acc[2] = s2;
+    acc[3] = s3;
+    acc[4] = s4;
+    acc[5] = s5;
+    acc[6] = s6;
+    acc[7] = s7;
+    acc[8] = s8;
+  }
+  double sc = 1;
+  for (int j = 0; j < nmom; j++) {
+    E[j] = sc * acc[j];
+    sc *= TF_PSUM_SCALE;
+  }
+  return 0;
+}
+
+int tf_psum_eval(const tf_psum *p, double b, int nmom, double *E) {
+  return psum_eval(p, b, nmom, E, psum_rmax);
+}
+
 /* ---- segment marginals (METHODS B5) ----------------------------------- */
 
 /* A segment without a day of data has marginal likelihood 1 (and the
@@ -409,12 +608,20 @@ double tf_seg_jump(const tf_cpdata *d, size_t s, size_t e, double *bio,
     if (fabs(step) > 1) /* a trust region: at most 1 a day per step */
       step = step > 0 ? 1 : -1;
     if (fabs(step) < 1e-9 * (1 + fabs(b))) {
-      /* converged: take the Newton step without another evaluation; the
-       * quadratic model puts the mode at b + step (error O(L step^2)) and
-       * the maximum at f + f1 step / 2 (error O(|f2| L step^3) < 1e-10
-       * for the counts and lengths allowed); f2 and the level at b. */
-      b += step;
-      f += 0.5 * f1 * step;
+      /* converged: the quadratic model puts the mode at b + step (error
+       * O(L step^2)); f, f2 and the level are evaluated there (f2 at b
+       * would be off by O(L step) relative) */
+      double bn = b + step, f1n, f2n, lbn;
+      double fn = jump_f(d, s, e, c, Y, S1, bn, &f1n, &f2n, &lbn);
+      if (isfinite(fn) && f2n < 0 && fn >= f) {
+        b = bn;
+        f = fn;
+        f2 = f2n;
+        lbp = lbn;
+      } else {
+        b = bn;
+        f += 0.5 * f1 * step;
+      }
       break;
     }
     double bn = b + step, f1n, f2n, lbn;
@@ -459,6 +666,145 @@ impossible:
   if (lvl)
     *lvl = NAN;
   return -INFINITY;
+}
+
+/* lgamma(x) - (x - 1/2) log x for x >= 10: -x + log sqrt(2 pi) + the
+ * Stirling series to x^-11 (absolute error below 1e-14; Abramowitz &
+ * Stegun 1964, 6.1.40-41). */
+static double lgamma_rest(double x) {
+  double ix = 1 / x, i2 = ix * ix;
+  double ser =
+      ix * (1.0 / 12 +
+            i2 * (-1.0 / 360 +
+                  i2 * (1.0 / 1260 +
+                        i2 * (-1.0 / 1680 +
+                              i2 * (1.0 / 1188 - i2 * 691.0 / 360360)))));
+  return -x + 0.91893853320467274178 + ser;
+}
+
+/* tf_seg_jump by Halley steps on f(b) of B5 with the moments from the power
+ * sums of p.  About the centre c = s + h of [s, e] (u = t - s about the
+ * start):
+ *   E0c = e^{-b h} E0,  m1 = E1/E0 - h,  V = E2/E0 - (E1/E0)^2,
+ *   m2 = V + m1^2,  k3 = the third central moment (from E3);
+ * with x = E0c/phi, r = x/(beta + x), q = 1 - r and ap = alpha + Y/phi:
+ *   f'   = S1/phi - ap r m1 - (b - mean)/sd^2,
+ *   f''  = -ap T - 1/sd^2,  T = r^2 V + r q m2,
+ *   f''' = -ap dT/db,  dT/db = 2 r r1 V + r^2 k3 + r1 (q - r) m2
+ *                              + r q (k3 + 2 m1 V),  r1 = dr/db = r q m1.
+ * The first evaluation, from the warm start, only sets the direction: its
+ * sums are cut at a remainder of 1e-6.  Converged when the step s times
+ * the span L is below 2e-5 and lam2 (s L)^2 < 1e-9, lam2 = f'^2/(-f'')
+ * (the Newton decrement): the step is taken without another evaluation,
+ * the maximum from the cubic model (error about f'''' s^4 / 24, with
+ * f'''' about f'' L^2 / 10: below 1e-11) and the curvature moved to the
+ * new point by f''' (relative error about (s L)^2 / 20 < 1e-10).  No step
+ * halving: when |f'| fails to fall, or anything leaves range, tf_seg_jump
+ * takes over from the same start.  For ap >= 10 the last terms are
+ * gathered as ap log(ap / (beta + x)) - log sqrt(ap (-f'')) with the
+ * Stirling series (two logarithms). */
+double tf_seg_jump_ps(const tf_cpdata *d, tf_psum *p, size_t e, double *bio,
+                      double *bvar, double *lvl) {
+  size_t s = p->s;
+  if (no_data(d, s, e))
+    return tf_seg_jump(d, s, e, bio, bvar, lvl);
+  tf_psum_extend(p, d, e);
+  double h = 0.5 * (double)(e - s), c = (double)s + h;
+  double Y = tf_sumy(d, s, e), S1 = tf_sumty(d, s, e) - c * Y;
+  double iphi = 1 / d->phi, ap = d->alpha + Y * iphi, beta = d->beta;
+  double isd = 1 / d->rsd, isd2 = isd * isd, S1p = S1 * iphi;
+  double span = p->umax + 1;
+  double b0 = isfinite(*bio) ? *bio : d->rmean, b = b0, af1p = INFINITY;
+  int coarse = 1;
+  for (int it = 0; it < 16; it++) {
+    double E[4];
+    const double *rmax = coarse ? psum_rmax_lo : psum_rmax;
+    int rc = psum_eval(p, b, 4, E, rmax);
+    if (rc == 1) {
+      tf_psum_reanchor(p, d, b);
+      rc = psum_eval(p, b, 4, E, rmax);
+    }
+    if (rc != 0 || !(E[0] > 0) || !(E[0] <= DBL_MAX))
+      break;
+    double x = exp(-b * h) * E[0] * iphi, bx = beta + x;
+    /* 1/E0 and 1/(beta + x) from one division */
+    double D = E[0] * bx, iD = 1 / D, ie, ibx;
+    if (D <= DBL_MAX && D >= DBL_MIN) {
+      ie = bx * iD;
+      ibx = E[0] * iD;
+    } else {
+      ie = 1 / E[0];
+      ibx = 1 / bx;
+    }
+    double mt = E[1] * ie, m2t = E[2] * ie, m3t = E[3] * ie;
+    double V = m2t - mt * mt;
+    if (V < 0)
+      V = 0;
+    double k3 = m3t - mt * (3 * m2t - 2 * mt * mt);
+    double m1 = mt - h, m2 = V + m1 * m1;
+    double r = x * ibx, q = beta * ibx;
+    double z = (b - d->rmean) * isd;
+    double f1 = S1p - ap * r * m1 - z * isd;
+    double T = r * (r * V + q * m2);
+    double f2 = -ap * T - isd2;
+    double if2 = 1 / f2, sn = -f1 * if2;
+    if (!(f2 < 0) || !isfinite(sn) || !isfinite(bx))
+      break;
+    /* Halley: the root of the quadratic model of f' */
+    double r1 = r * q * m1;
+    double T1 = 2 * r * r1 * V + r * r * k3 + r1 * (q - r) * m2 +
+                r * q * (k3 + 2 * m1 * V);
+    double f3 = -ap * T1;
+    /* step = sn / (1 + a), a = f3 sn / (2 f2), to O(a^3) as Halley is */
+    double a = 0.5 * f3 * sn * if2, step = sn * (1 - a + a * a);
+    if (!(fabs(a) <= 0.25))
+      step = sn;
+    double sl = fabs(step) * span, lam2 = -f1 * sn;
+    if (sl < 2e-5 && lam2 * sl * sl < 1e-9) {
+      if (coarse) { /* close already: the same point with full sums */
+        coarse = 0;
+        continue;
+      }
+      double f = b * S1p - 0.5 * z * z +
+                 step * (f1 + step * (0.5 * f2 + step * f3 / 6));
+      double f2n = f2 + f3 * step;
+      if (!(f2n < 0))
+        f2n = f2;
+      b += step;
+      double lp;
+      if (ap >= 10) {
+        /* lgamma(ap) - ap log(bx) - log sqrt(-f2n)
+         *   = ap log(ap / bx) - log sqrt(ap (-f2n)) + lgamma_rest(ap) */
+        lp = f + ap * log(ap * ibx) - 0.5 * log(ap * -f2n) +
+             lgamma_rest(ap) + d->lvl0 - d->lrsd;
+      } else {
+        lp = f - ap * log(bx) + d->lvl0 + tf_lgamma(ap) - d->lrsd -
+             0.5 * log(-f2n);
+      }
+      if (!isfinite(lp))
+        break;
+      *bio = b;
+      *bvar = -1 / f2n;
+      if (lvl) /* log(beta + x) moves by r m1 step */
+        *lvl = ap / (bx * (1 + r * m1 * step));
+      return lp;
+    }
+    double af1 = fabs(f1);
+    if (!(af1 < af1p) || fabs(step) > 1)
+      break;
+    af1p = af1;
+    coarse = 0;
+    b += step;
+  }
+  *bio = b0;
+  return tf_seg_jump(d, s, e, bio, bvar, lvl);
+}
+
+double tf_seg_jump_at(const tf_cpdata *d, size_t s, size_t e, double *b,
+                      double *bvar, double *lvl) {
+  tf_psum p;
+  tf_psum_init(&p, s, isfinite(*b) ? *b : d->rmean);
+  return tf_seg_jump_ps(d, &p, e, b, bvar, lvl);
 }
 
 /* ---- segment-length prior (METHODS A1) -------------------------------- */
