@@ -92,6 +92,190 @@ static void kl_evaluate(const tf_cpdata *d, size_t s, size_t e, double c,
   r->det = P * P * V + P / rsd2 + P * m2 / v + 1 / (v * rsd2);
 }
 
+/* ---- incremental power sums (tf_ksums) ---------------------------------
+ *
+ * For a start s the sums A_k = sum_t w_t u^k e^{bref u}, u = t - s + 1,
+ * over the present days of [s, e] take O(K) to extend by a day, and
+ *
+ *     E_j(b) = sum_k (b - bref)^k / k!  A_{j+k},   j = 0, 1, 2,
+ *
+ * a Taylor series in b - bref.  With delta = |b - bref| L (L = e - s + 1,
+ * so |b - bref| u <= delta for every day), the remainder after n terms is
+ * at most delta^n / n! e^delta A_j, and E_j >= e^-delta A_j, so n terms
+ * with delta^n / n! e^{2 delta} <= 2^-53 (the table below) leave a
+ * relative truncation error in E_j below the unit roundoff.  The factor
+ * e^{bref u} is carried by multiplication with e^{bref} and recomputed
+ * by exp every KL_Z_EXACT days (relative drift at most 2 KL_Z_EXACT ulp).
+ * The error of e^a E0 / phi in f is then a few ulp times (e^{2 delta} +
+ * 2 KL_Z_EXACT) of P itself, i.e. at most about 1e-14 P: 1e-9 for a
+ * segment holding 1e5 (tempered) counts.  When b leaves the band
+ * (delta > kl_band[TF_KS_TERMS]) the sums are rebuilt at bref = b, O(L). */
+#define KL_Z_EXACT 8
+/* |bref| L beyond which the closed forms of tf_esums take over (the sums
+ * would hold numbers near the double range) */
+#define KL_BREF_RANGE 300.0
+#define KL_KS_MAXLEN 20000
+
+/* kl_band[n]: the largest delta for n terms (delta^n/n! e^{2 delta} <=
+ * 2^-53), rounded down */
+static const double kl_band[TF_KS_TERMS + 1] = {
+    0,         1.1e-16,  1.49e-8, 8.73e-6, 2.27e-4, 1.677e-3,
+    6.549e-3,  1.768e-2, 3.778e-2, 6.892e-2, 0.1123, 0.1687,
+    0.2380,    0.3197,   0.4132,  0.5177,  0.6324};
+static const double kl_inv[TF_KS_TERMS] = {
+    0,        1.0,      1.0 / 2,  1.0 / 3,  1.0 / 4,  1.0 / 5,
+    1.0 / 6,  1.0 / 7,  1.0 / 8,  1.0 / 9,  1.0 / 10, 1.0 / 11,
+    1.0 / 12, 1.0 / 13, 1.0 / 14, 1.0 / 15};
+
+/* Day t (class cl) added to the sums of the start s.  The powers of u
+ * run in four interleaved chains (u^k, u^{k+1}, u^{k+2}, u^{k+3} times
+ * u^4), so that the latency is a quarter of one chain's. */
+static void ks_add(const tf_cpdata *d, tf_ksums *ks, size_t s, size_t t,
+                   int cl) {
+  size_t iu = t - s + 1;
+  double u = (double)iu;
+  if (iu % KL_Z_EXACT == 0)
+    ks->z = exp(ks->bref * u);
+  else
+    ks->z *= ks->eb;
+  if (tf_isnan(d->y[t]))
+    return;
+  double t0 = d->wcls[cl] * ks->z, u2 = u * u, u4 = u2 * u2;
+  double t1 = t0 * u, t2 = t0 * u2, t3 = t1 * u2;
+  double *A = ks->A;
+  int k = 0;
+  for (; k + 4 <= TF_KS_TERMS + 2; k += 4) {
+    A[k] += t0;
+    A[k + 1] += t1;
+    A[k + 2] += t2;
+    A[k + 3] += t3;
+    t0 *= u4;
+    t1 *= u4;
+    t2 *= u4;
+    t3 *= u4;
+  }
+  if (k < TF_KS_TERMS + 2)
+    A[k++] += t0;
+  if (k < TF_KS_TERMS + 2)
+    A[k++] += t1;
+  if (k < TF_KS_TERMS + 2)
+    A[k++] += t2;
+}
+
+static void ks_build(const tf_cpdata *d, tf_ksums *ks, size_t s, size_t e,
+                     double bref) {
+  memset(ks->A, 0, sizeof ks->A);
+  ks->bref = bref;
+  ks->eb = exp(bref);
+  ks->z = 1;
+  int cl = tf_cls(d, s);
+  for (size_t t = s; t <= e; t++) {
+    ks_add(d, ks, s, t, cl);
+    ks->cls = cl;
+    cl = cl == 6 ? 0 : cl + 1;
+  }
+  ks->e = e;
+  ks->live = 1;
+}
+
+static void ks_extend(const tf_cpdata *d, tf_ksums *ks, size_t s, size_t e) {
+  for (size_t t = ks->e + 1; t <= e; t++) {
+    int cl = ks->cls == 6 ? 0 : ks->cls + 1;
+    ks_add(d, ks, s, t, cl);
+    ks->cls = cl;
+  }
+  ks->e = e;
+}
+
+/* e^z for |z| <= 0.02 by its Taylor polynomial of degree 7 (remainder
+ * below 7e-19 relative) */
+static inline double kl_expsmall(double z) {
+  return 1 +
+         z * (1 + z * 0.5 *
+                      (1 + z * (1.0 / 3) *
+                               (1 + z * 0.25 *
+                                        (1 + z * 0.2 *
+                                                 (1 + z * (1.0 / 6) *
+                                                          (1 + z * (1.0 / 7)))))));
+}
+
+/* One segment's evaluation context. */
+typedef struct kl_ctx {
+  const tf_cpdata *d;
+  size_t s, e;
+  double c, Y, S1, m, v, L;
+  double iphi, iv, irsd2;
+  tf_ksums *ks; /* NULL: the closed forms of tf_esums */
+  double a0, ea0; /* e^{a0}, exact, for e^a near a0 */
+} kl_ctx;
+
+/* E0, E1, E2 at b from the power sums; 0 when they do not apply (b too
+ * far from any reference the sums can hold, or no present day). */
+static int ks_sums(kl_ctx *x, double b, double *E) {
+  tf_ksums *ks = x->ks;
+  double dx = b - ks->bref, delta = fabs(dx) * x->L;
+  int n = 1;
+  while (!(delta <= kl_band[n])) {
+    if (++n > TF_KS_TERMS) {
+      if (!(fabs(b) * x->L <= KL_BREF_RANGE))
+        return 0;
+      ks_build(x->d, ks, x->s, x->e, b);
+      dx = 0;
+      n = 1;
+      break;
+    }
+  }
+  /* E_j = sum_k c_k A_{j+k}, c_k = dx^k / k!, summed from the smallest
+   * term, the three sums interleaved */
+  double cf[TF_KS_TERMS];
+  cf[0] = 1;
+  for (int k = 1; k < n; k++)
+    cf[k] = cf[k - 1] * dx * kl_inv[k];
+  const double *A = ks->A;
+  double e0 = 0, e1 = 0, e2 = 0;
+  for (int k = n - 1; k >= 0; k--) {
+    e0 += cf[k] * A[k];
+    e1 += cf[k] * A[k + 1];
+    e2 += cf[k] * A[k + 2];
+  }
+  E[0] = e0;
+  E[1] = e1;
+  E[2] = e2;
+  return E[0] > 0 && isfinite(E[2]);
+}
+
+static void kl_eval_at(kl_ctx *x, double a, double b, kl_eval *r) {
+  double E[3];
+  if (x->ks && ks_sums(x, b, E)) {
+    double za = a - x->a0, ea;
+    if (fabs(za) <= 0.02) {
+      ea = x->ea0 * kl_expsmall(za);
+    } else {
+      x->a0 = a;
+      x->ea0 = ea = exp(a);
+    }
+    double iE0 = 1 / E[0], m1 = E[1] * iE0, m2 = E[2] * iE0;
+    double P = ea * E[0] * x->iphi;
+    double zm = a - x->m, zb = b - x->d->rmean;
+    r->f = (a * x->Y + b * x->S1) * x->iphi - P - 0.5 * zm * zm * x->iv -
+           0.5 * zb * zb * x->irsd2;
+    if (isfinite(r->f) && isfinite(P * m2)) {
+      double V = m2 - m1 * m1;
+      if (V < 0)
+        V = 0;
+      r->ga = x->Y * x->iphi - P - zm * x->iv;
+      r->gb = x->S1 * x->iphi - P * m1 - zb * x->irsd2;
+      r->haa = P + x->iv;
+      r->hab = P * m1;
+      r->hbb = P * m2 + x->irsd2;
+      /* haa hbb - hab^2 as a sum of positive terms (METHODS B4) */
+      r->det = P * P * V + P * x->irsd2 + P * m2 * x->iv + x->iv * x->irsd2;
+      return;
+    }
+  }
+  kl_evaluate(x->d, x->s, x->e, x->c, x->Y, x->S1, x->m, x->v, a, b, r);
+}
+
 double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
                          double v, kl_fit *fit) {
   double c = (double)s - 1;
@@ -99,8 +283,25 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
   double L = (double)(e - s + 1);
   double a = isfinite(fit->a) ? fit->a : m;
   double b = isfinite(fit->b) ? fit->b : d->rmean;
-  if (isfinite(fit->pa) && isfinite(fit->a) && isfinite(fit->b) &&
-      fabs(fit->a - fit->pa) < 1 && fabs(fit->b - fit->pb) < 0.1) {
+  double iphi = 1 / d->phi;
+  if (fit->next == e && e > s && isfinite(fit->a) && isfinite(fit->b)) {
+    /* warm start: one Newton step from the mode of [s, e-1] for the new
+     * day's term alone, with the Hessian kept from that fit (the gradient
+     * of the rest is zero there to the tolerance below) */
+    if (!tf_isnan(d->y[e])) {
+      double h = d->wcls[tf_cls(d, e)] * exp(a + b * L) * iphi;
+      double g = d->y[e] * iphi - h;
+      double haa = fit->haa + h, hab = fit->hab + h * L,
+             hbb = fit->hbb + h * L * L;
+      double det = haa * hbb - hab * hab;
+      double da = (hbb - hab * L) * g / det, db = (haa * L - hab) * g / det;
+      if (fabs(da) < 1 && fabs(db) < 0.1) {
+        a += da;
+        b += db;
+      }
+    }
+  } else if (isfinite(fit->pa) && isfinite(fit->a) && isfinite(fit->b) &&
+             fabs(fit->a - fit->pa) < 1 && fabs(fit->b - fit->pb) < 0.1) {
     /* warm start: the modes of [s, e-2] and [s, e-1] extrapolated (not
      * after a large move) */
     a += fit->a - fit->pa;
@@ -108,12 +309,29 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
   }
   fit->pa = fit->a;
   fit->pb = fit->b;
+  kl_ctx x = {d, s, e, c, Y, S1, m, v, L, iphi, 1 / v,
+              1 / (d->rsd * d->rsd), NULL, fit->a0, fit->ea0};
+  if (!(x.ea0 > 0)) {
+    x.a0 = a;
+    x.ea0 = exp(a);
+  }
+  if (e - s < KL_KS_MAXLEN) {
+    tf_ksums *ks = &fit->ks;
+    if (ks->live && ks->e <= e && ks->e + 1 >= s)
+      ks_extend(d, ks, s, e);
+    else if (fabs(b) * L <= KL_BREF_RANGE)
+      ks_build(d, ks, s, e, b);
+    else
+      ks->live = 0;
+    if (ks->live)
+      x.ks = ks;
+  }
   kl_eval r, rn;
-  kl_evaluate(d, s, e, c, Y, S1, m, v, a, b, &r);
+  kl_eval_at(&x, a, b, &r);
   if (r.f == -INFINITY) {
     a = m;
     b = d->rmean;
-    kl_evaluate(d, s, e, c, Y, S1, m, v, a, b, &r);
+    kl_eval_at(&x, a, b, &r);
   }
   double f = r.f;
   if (f == -INFINITY)
@@ -144,7 +362,7 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
       t = 1 / fabs(db);
     int h = 0;
     for (;;) {
-      kl_evaluate(d, s, e, c, Y, S1, m, v, a + t * da, b + t * db, &rn);
+      kl_eval_at(&x, a + t * da, b + t * db, &rn);
       if (rn.f >= f - 1e-12 * fabs(f) || h >= 50)
         break;
       t *= 0.5;
@@ -169,6 +387,12 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
       fit->bvar = vb;
       fit->xm = a + b * L;
       fit->xv = xv > 1e-30 ? xv : 1e-30;
+      fit->next = e + 1;
+      fit->haa = r.haa;
+      fit->hab = r.hab;
+      fit->hbb = r.hbb;
+      fit->a0 = x.a0;
+      fit->ea0 = x.ea0;
       return lp;
     }
   }
@@ -179,6 +403,7 @@ fallback:
   fit->a = m;
   fit->b = d->rmean;
   fit->pa = fit->pb = NAN;
+  fit->next = 0;
   fit->bvar = d->rsd * d->rsd;
   fit->xm = m + d->rmean * L;
   fit->xv = v + L * L * d->rsd * d->rsd;
@@ -242,8 +467,10 @@ typedef struct kl_work {
   size_t *act;       /* active starts, increasing                */
   size_t *run;       /* days below the pruning bound, per start  */
   kl_fit *fit;       /* warm starts, per start                   */
-  double *ws, *wx, *wv; /* per active start: weights, x mean, var */
-  double *sv;        /* per active start: filtered weight        */
+  double *sv, *wx, *wv; /* per active start: log filtered weight, x mean, var */
+  double *qs, *qg;   /* per active start: e^{sv - max sv}, times the hazard */
+  double *hz, *hz0;  /* hazard g(L) / S(L-1), L = 0..n (later, first segment) */
+  double *tmp;       /* n, for the backward sums                 */
 } kl_work;
 
 static void kl_work_free(kl_work *w) {
@@ -252,21 +479,40 @@ static void kl_work_free(kl_work *w) {
   free(w->act);
   free(w->run);
   free(w->fit);
-  free(w->ws);
+  free(w->sv);
   free(w->wx);
   free(w->wv);
-  free(w->sv);
+  free(w->qs);
+  free(w->qg);
+  free(w->hz);
+  free(w->hz0);
+  free(w->tmp);
 }
 
-/* The forward pass: messages, Fa, the e-major cache and stop[]. */
+/* The forward pass: messages, Fa, the e-major cache and stop[].
+ *
+ * For each end e the filtered weights sv(s) = Fa[s] + log P(s, e) + log
+ * S(L-1) are exponentiated once against their largest, e^{sv - max}; the
+ * new-segment weights Fa[s] + log P(s, e) + log g(L) are these times the
+ * hazard g(L)/S(L-1) (tabled), so the sum for Fa[e+1], the total for the
+ * pruning bound and the mixture weights of the message take one exp per
+ * candidate and one log per day.  Should the new-segment weights all
+ * underflow against the largest filtered weight, they are taken against
+ * their own largest instead (one more exp per candidate, rare). */
 static int kl_forward(twofold_changes *ch, kl_work *w, kl_entries *E) {
   const tf_cpdata *d = &ch->d;
   const tf_lenprior *lp = &ch->lp;
   size_t n = ch->n, na = 0;
-  double leps = ch->opt.prune > 0 ? log(ch->opt.prune) : -INFINITY;
+  double eps = ch->opt.prune > 0 ? ch->opt.prune : 0;
   for (size_t i = 0; i <= n; i++)
     ch->Fa[i] = -INFINITY;
   ch->Fa[0] = 0;
+  w->hz[0] = w->hz0[0] = 0;
+  for (size_t L = 1; L <= n; L++) {
+    w->hz[L] = lp->lS[L - 1] > -INFINITY ? exp(lp->lg[L] - lp->lS[L - 1]) : 0;
+    w->hz0[L] =
+        lp->lS0[L - 1] > -INFINITY ? exp(lp->lg0[L] - lp->lS0[L - 1]) : 0;
+  }
   /* knot 0: log lambda with lambda ~ Gamma(alpha, beta), as a normal */
   w->mm[0] = gsl_sf_psi(d->alpha) - log(d->beta);
   w->mv[0] = gsl_sf_psi_1(d->alpha);
@@ -277,9 +523,12 @@ static int kl_forward(twofold_changes *ch, kl_work *w, kl_entries *E) {
       w->fit[e].a = w->mm[e];
       w->fit[e].b = d->rmean;
       w->fit[e].pa = w->fit[e].pb = NAN;
+      w->fit[e].ks.live = 0;
+      w->fit[e].next = 0;
+      w->fit[e].ea0 = 0;
       na++;
     }
-    double tot = -INFINITY;
+    double ref = -INFINITY;
     for (size_t i = 0; i < na; i++) {
       size_t s = w->act[i], L = e - s + 1;
       kl_fit *f = &w->fit[s];
@@ -288,46 +537,77 @@ static int kl_forward(twofold_changes *ch, kl_work *w, kl_entries *E) {
       if (rc)
         return rc;
       ch->stop[s] = e;
-      double wk = -INFINITY;
-      if (e + 1 < n) {
-        wk = ch->Fa[s] + lps + tf_lg(lp, s, L);
-        ch->Fa[e + 1] = tf_lse(ch->Fa[e + 1], wk);
-      }
-      w->ws[i] = wk;
       w->wx[i] = f->xm;
       w->wv[i] = f->xv;
       /* filtered weight of "the segment covering day e started at s" */
       double sv = ch->Fa[s] + lps + tf_lsurv(lp, s, L);
-      tot = tf_lse(tot, sv);
       w->sv[i] = sv;
+      if (sv > ref)
+        ref = sv;
+    }
+    if (ref == -INFINITY)
+      continue; /* nothing possible ends here: Fa[e+1] stays -inf */
+    double tot = 0, sumg = 0;
+    for (size_t i = 0; i < na; i++) {
+      size_t s = w->act[i], L = e - s + 1;
+      double q = w->sv[i] > -INFINITY ? exp(w->sv[i] - ref) : 0;
+      double g = q * (s == 0 ? w->hz0[L] : w->hz[L]);
+      w->qs[i] = q;
+      w->qg[i] = g;
+      tot += q;
+      sumg += g;
+    }
+    double F = -INFINITY;
+    if (e + 1 < n) {
+      if (sumg >= 1e-250) {
+        F = ref + log(sumg);
+      } else {
+        double rg = -INFINITY;
+        for (size_t i = 0; i < na; i++) {
+          size_t s = w->act[i], L = e - s + 1;
+          double l = w->sv[i] - tf_lsurv(lp, s, L) + tf_lg(lp, s, L);
+          w->qg[i] = l;
+          if (l > rg)
+            rg = l;
+        }
+        sumg = 0;
+        if (rg > -INFINITY) {
+          for (size_t i = 0; i < na; i++) {
+            double g = w->qg[i] > -INFINITY ? exp(w->qg[i] - rg) : 0;
+            w->qg[i] = g;
+            sumg += g;
+          }
+          F = rg + log(sumg);
+        }
+      }
+      ch->Fa[e + 1] = F;
     }
     /* the message at knot e+1: the mixture over s, collapsed */
-    if (e + 1 < n && ch->Fa[e + 1] > -INFINITY) {
-      double F = ch->Fa[e + 1], s0 = 0, s1 = 0, s2 = 0, ref = NAN;
+    if (e + 1 < n && F > -INFINITY) {
+      double s0 = 0, s1 = 0, s2 = 0, xref = NAN;
       for (size_t i = 0; i < na; i++) {
-        if (w->ws[i] == -INFINITY || !isfinite(w->wx[i]) ||
-            !isfinite(w->wv[i]))
+        double om = w->qg[i];
+        if (!(om > 0) || !isfinite(w->wx[i]) || !isfinite(w->wv[i]))
           continue;
-        double om = exp(w->ws[i] - F);
-        if (isnan(ref))
-          ref = w->wx[i];
-        double dx = w->wx[i] - ref;
+        if (isnan(xref))
+          xref = w->wx[i];
+        double dx = w->wx[i] - xref;
         s0 += om;
         s1 += om * dx;
         s2 += om * (w->wv[i] + dx * dx);
       }
       double mu = s1 / s0;
       double var = s2 / s0 - mu * mu;
-      w->mm[e + 1] = s0 > 0 ? ref + mu : w->mm[0];
+      w->mm[e + 1] = s0 > 0 ? xref + mu : w->mm[0];
       w->mv[e + 1] = s0 > 0 ? (var > 1e-30 ? var : 1e-30) : w->mv[0];
     }
     /* pruning */
-    if (e + 1 < n && leps > -INFINITY && tot > -INFINITY) {
+    if (e + 1 < n && eps > 0) {
+      double bound = eps * tot;
       size_t k = 0;
       for (size_t i = 0; i < na; i++) {
         size_t s = w->act[i], L = e - s + 1;
-        double sv = w->sv[i];
-        if (L >= (size_t)ch->opt.min_seg && sv < leps + tot) {
+        if (L >= (size_t)ch->opt.min_seg && w->qs[i] < bound) {
           if (++w->run[s] >= KL_PRUNE_RUN)
             continue; /* dropped */
         } else {
@@ -357,13 +637,18 @@ int tf_kinkl_run(twofold_changes *ch) {
   w.act = malloc(n * sizeof(size_t));
   w.run = malloc(n * sizeof(size_t));
   w.fit = malloc(n * sizeof(kl_fit));
-  w.ws = malloc(n * sizeof(double));
+  w.sv = malloc(n * sizeof(double));
   w.wx = malloc(n * sizeof(double));
   w.wv = malloc(n * sizeof(double));
-  w.sv = malloc(n * sizeof(double));
+  w.qs = malloc(n * sizeof(double));
+  w.qg = malloc(n * sizeof(double));
+  w.hz = malloc((n + 1) * sizeof(double));
+  w.hz0 = malloc((n + 1) * sizeof(double));
+  w.tmp = malloc(n * sizeof(double));
   size_t *cnt = NULL;
   if (!ch->Q || !ch->Fa || !ch->stop || !ch->off || !w.mm || !w.mv ||
-      !w.act || !w.run || !w.fit || !w.ws || !w.wx || !w.wv || !w.sv)
+      !w.act || !w.run || !w.fit || !w.sv || !w.wx || !w.wv || !w.qs ||
+      !w.qg || !w.hz || !w.hz0 || !w.tmp)
     goto out;
   for (size_t s = 0; s < n; s++)
     ch->stop[s] = SIZE_MAX; /* never started */
@@ -400,17 +685,30 @@ int tf_kinkl_run(twofold_changes *ch) {
     ch->cb[k] = E.b[i];
     ch->cv[k] = E.v[i];
   }
-  /* backward over the cache (METHODS A2) */
+  /* backward over the cache (METHODS A2): the terms against their
+   * largest, one exp each */
   ch->Q[n] = 0;
   for (size_t t = n; t-- > 0;) {
+    double mx = -INFINITY, *tm = w.tmp;
+    const double *cl = ch->clogP + ch->off[t];
+    size_t ne = ch->stop[t] - t + 1;
+    for (size_t j = 0; j < ne; j++) {
+      size_t e = t + j, L = j + 1;
+      double l = cl[j];
+      if (l > -INFINITY)
+        l += (e + 1 < n ? tf_lg(&ch->lp, t, L) : tf_lsurv(&ch->lp, t, L)) +
+             ch->Q[e + 1];
+      tm[j] = l;
+      if (l > mx)
+        mx = l;
+    }
     double acc = -INFINITY;
-    for (size_t e = t; e <= ch->stop[t]; e++) {
-      double l = ch->clogP[ch->off[t] + (e - t)];
-      if (l == -INFINITY)
-        continue;
-      size_t L = e - t + 1;
-      double pr = e + 1 < n ? tf_lg(&ch->lp, t, L) : tf_lsurv(&ch->lp, t, L);
-      acc = tf_lse(acc, l + pr + ch->Q[e + 1]);
+    if (mx > -INFINITY) {
+      double sum = 0;
+      for (size_t j = 0; j < ne; j++)
+        if (tm[j] > -INFINITY)
+          sum += exp(tm[j] - mx);
+      acc = mx + log(sum);
     }
     ch->Q[t] = acc;
   }
@@ -429,7 +727,7 @@ int tf_kinkl_run(twofold_changes *ch) {
   for (size_t j = 0; j <= ch->nmap; j++) {
     size_t s = ch->mapstart[j], e = ch->mapstart[j + 1] - 1;
     size_t mid = (s + e) / 2;
-    kl_fit f = {NAN, NAN, NAN, NAN, 0, 0, 0};
+    kl_fit f = {.a = NAN, .b = NAN, .pa = NAN, .pb = NAN};
     (void)tf_seg_kink(&ch->d, s, e, w.mm[s], w.mv[s], &f);
     ch->maplvl[j] = exp(f.a + f.b * ((double)mid - (double)s + 1));
   }

@@ -299,7 +299,7 @@ static int add_day(twofold_online *on, double y) {
       double beta = d->beta > 0 ? d->beta : d->alpha;
       on->cmm[0] = gsl_sf_psi(d->alpha) - log(beta);
       on->cmv[0] = gsl_sf_psi_1(d->alpha);
-      on->cf[0] = (tf_kfit){on->cmm[0], d->rmean, NAN, NAN, 0, 0, 0};
+      on->cf[0] = (tf_kfit){.a = on->cmm[0], .b = d->rmean, .pa = NAN, .pb = NAN};
     }
     double l0 = seg_lp(on, 0, 0, 0, &b, &v);
     on->nc = 1;
@@ -364,7 +364,7 @@ static int add_day(twofold_online *on, double y) {
   if (kink) {
     on->cmm[k] = isnan(nm) ? on->cmm[0] : nm;
     on->cmv[k] = isnan(nv) ? on->cmv[0] : nv;
-    on->cf[k] = (tf_kfit){on->cmm[k], d->rmean, NAN, NAN, 0, 0, 0};
+    on->cf[k] = (tf_kfit){.a = on->cmm[k], .b = d->rmean, .pa = NAN, .pb = NAN};
   }
   double l1 = seg_lp(on, k, t, t, &b, &v);
   on->nc++;
