@@ -122,10 +122,15 @@ static const double kl_band[TF_KS_TERMS + 1] = {
     0,         1.1e-16,  1.49e-8, 8.73e-6, 2.27e-4, 1.677e-3,
     6.549e-3,  1.768e-2, 3.778e-2, 6.892e-2, 0.1123, 0.1687,
     0.2380,    0.3197,   0.4132,  0.5177,  0.6324};
-static const double kl_inv[TF_KS_TERMS] = {
-    0,        1.0,      1.0 / 2,  1.0 / 3,  1.0 / 4,  1.0 / 5,
-    1.0 / 6,  1.0 / 7,  1.0 / 8,  1.0 / 9,  1.0 / 10, 1.0 / 11,
-    1.0 / 12, 1.0 / 13, 1.0 / 14, 1.0 / 15};
+/* 1 / (k (k-1)) */
+static const double kl_inv2[TF_KS_TERMS] = {
+    0,          0,          1.0 / 2,    1.0 / 6,    1.0 / 12,  1.0 / 20,
+    1.0 / 30,   1.0 / 42,   1.0 / 56,   1.0 / 72,   1.0 / 90,  1.0 / 110,
+    1.0 / 132,  1.0 / 156,  1.0 / 182,  1.0 / 210};
+/* the sums are rebuilt at b when more terms than this would be needed */
+#ifndef KL_KS_USE
+#define KL_KS_USE TF_KS_TERMS
+#endif
 
 /* Day t (class cl) added to the sums of the start s.  The powers of u
  * run in four interleaved chains (u^k, u^{k+1}, u^{k+2}, u^{k+3} times
@@ -214,33 +219,47 @@ typedef struct kl_ctx {
 static int ks_sums(kl_ctx *x, double b, double *E) {
   tf_ksums *ks = x->ks;
   double dx = b - ks->bref, delta = fabs(dx) * x->L;
-  int n = 1;
-  while (!(delta <= kl_band[n])) {
-    if (++n > TF_KS_TERMS) {
-      if (!(fabs(b) * x->L <= KL_BREF_RANGE))
-        return 0;
-      ks_build(x->d, ks, x->s, x->e, b);
-      dx = 0;
-      n = 1;
-      break;
-    }
+  int n;
+  if (delta <= kl_band[KL_KS_USE]) {
+    /* the fewest terms: the thresholds below delta counted (no
+     * branches) */
+    n = 1;
+    for (int k = 1; k < KL_KS_USE; k++)
+      n += delta > kl_band[k];
+  } else {
+    if (!(fabs(b) * x->L <= KL_BREF_RANGE))
+      return 0;
+    ks_build(x->d, ks, x->s, x->e, b);
+    dx = 0;
+    n = 1;
   }
-  /* E_j = sum_k c_k A_{j+k}, c_k = dx^k / k!, summed from the smallest
-   * term, the three sums interleaved */
-  double cf[TF_KS_TERMS];
+  /* E_j = sum_k c_k A_{j+k}, c_k = dx^k / k! (two interleaved chains of
+   * c_k = c_{k-2} dx^2 / (k (k-1))), summed from the smallest term, the
+   * three sums interleaved */
+  double cf[TF_KS_TERMS + 1], d2 = dx * dx;
   cf[0] = 1;
-  for (int k = 1; k < n; k++)
-    cf[k] = cf[k - 1] * dx * kl_inv[k];
+  cf[1] = dx;
+  for (int k = 2; k < n; k++)
+    cf[k] = cf[k - 2] * (d2 * kl_inv2[k]);
   const double *A = ks->A;
-  double e0 = 0, e1 = 0, e2 = 0;
-  for (int k = n - 1; k >= 0; k--) {
+  double e0 = 0, e1 = 0, e2 = 0, o0 = 0, o1 = 0, o2 = 0;
+  int k = n - 1;
+  for (; k >= 1; k -= 2) { /* odd and even terms in separate sums */
     e0 += cf[k] * A[k];
     e1 += cf[k] * A[k + 1];
     e2 += cf[k] * A[k + 2];
+    o0 += cf[k - 1] * A[k - 1];
+    o1 += cf[k - 1] * A[k];
+    o2 += cf[k - 1] * A[k + 1];
   }
-  E[0] = e0;
-  E[1] = e1;
-  E[2] = e2;
+  if (k == 0) {
+    o0 += A[0];
+    o1 += A[1];
+    o2 += A[2];
+  }
+  E[0] = e0 + o0;
+  E[1] = e1 + o1;
+  E[2] = e2 + o2;
   return E[0] > 0 && isfinite(E[2]);
 }
 
@@ -254,22 +273,24 @@ static void kl_eval_at(kl_ctx *x, double a, double b, kl_eval *r) {
       x->a0 = a;
       x->ea0 = ea = exp(a);
     }
-    double iE0 = 1 / E[0], m1 = E[1] * iE0, m2 = E[2] * iE0;
-    double P = ea * E[0] * x->iphi;
+    /* P = e^a E0 / phi, P m1 = e^a E1 / phi, P m2 = e^a E2 / phi and
+     * P^2 V = P P m2 - (P m1)^2: no division */
+    double ep = ea * x->iphi;
+    double P = ep * E[0], P1 = ep * E[1], P2 = ep * E[2];
     double zm = a - x->m, zb = b - x->d->rmean;
     r->f = (a * x->Y + b * x->S1) * x->iphi - P - 0.5 * zm * zm * x->iv -
            0.5 * zb * zb * x->irsd2;
-    if (isfinite(r->f) && isfinite(P * m2)) {
-      double V = m2 - m1 * m1;
+    if (isfinite(r->f) && isfinite(P2 * P)) {
+      double V = P * P2 - P1 * P1; /* P^2 V */
       if (V < 0)
         V = 0;
       r->ga = x->Y * x->iphi - P - zm * x->iv;
-      r->gb = x->S1 * x->iphi - P * m1 - zb * x->irsd2;
+      r->gb = x->S1 * x->iphi - P1 - zb * x->irsd2;
       r->haa = P + x->iv;
-      r->hab = P * m1;
-      r->hbb = P * m2 + x->irsd2;
+      r->hab = P1;
+      r->hbb = P2 + x->irsd2;
       /* haa hbb - hab^2 as a sum of positive terms (METHODS B4) */
-      r->det = P * P * V + P * x->irsd2 + P * m2 * x->iv + x->iv * x->irsd2;
+      r->det = V + P * x->irsd2 + P2 * x->iv + x->iv * x->irsd2;
       return;
     }
   }
@@ -284,31 +305,6 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
   double a = isfinite(fit->a) ? fit->a : m;
   double b = isfinite(fit->b) ? fit->b : d->rmean;
   double iphi = 1 / d->phi;
-  if (fit->next == e && e > s && isfinite(fit->a) && isfinite(fit->b)) {
-    /* warm start: one Newton step from the mode of [s, e-1] for the new
-     * day's term alone, with the Hessian kept from that fit (the gradient
-     * of the rest is zero there to the tolerance below) */
-    if (!tf_isnan(d->y[e])) {
-      double h = d->wcls[tf_cls(d, e)] * exp(a + b * L) * iphi;
-      double g = d->y[e] * iphi - h;
-      double haa = fit->haa + h, hab = fit->hab + h * L,
-             hbb = fit->hbb + h * L * L;
-      double det = haa * hbb - hab * hab;
-      double da = (hbb - hab * L) * g / det, db = (haa * L - hab) * g / det;
-      if (fabs(da) < 1 && fabs(db) < 0.1) {
-        a += da;
-        b += db;
-      }
-    }
-  } else if (isfinite(fit->pa) && isfinite(fit->a) && isfinite(fit->b) &&
-             fabs(fit->a - fit->pa) < 1 && fabs(fit->b - fit->pb) < 0.1) {
-    /* warm start: the modes of [s, e-2] and [s, e-1] extrapolated (not
-     * after a large move) */
-    a += fit->a - fit->pa;
-    b += fit->b - fit->pb;
-  }
-  fit->pa = fit->a;
-  fit->pb = fit->b;
   kl_ctx x = {d, s, e, c, Y, S1, m, v, L, iphi, 1 / v,
               1 / (d->rsd * d->rsd), NULL, fit->a0, fit->ea0};
   if (!(x.ea0 > 0)) {
@@ -326,6 +322,42 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
     if (ks->live)
       x.ks = ks;
   }
+  if (fit->next == e && e > s && isfinite(fit->a) && isfinite(fit->b)) {
+    /* warm start: one Newton step from the mode of [s, e-1] for the new
+     * day's term alone, with the Hessian kept from that fit (the gradient
+     * of the rest is zero there to the tolerance below) */
+    if (!tf_isnan(d->y[e])) {
+      /* e^{a + b L} from e^{a0} and the sums' e^{bref L}, by short
+       * series (relative error below 1e-8: enough for a starting
+       * point) */
+      double ex, za = a - x.a0, zb = x.ks ? (b - x.ks->bref) * L : 1;
+      if (fabs(za) <= 0.02 && fabs(zb) <= 0.7)
+        ex = x.ea0 * kl_expsmall(za) * x.ks->z *
+             (1 + zb * (1 + zb * 0.5 * (1 + zb * (1.0 / 3) * (1 + zb * 0.25 *
+             (1 + zb * 0.2 * (1 + zb * (1.0 / 6) * (1 + zb * (1.0 / 7) *
+             (1 + zb * 0.125 * (1 + zb * (1.0 / 9) * (1 + zb * 0.1))))))))));
+      else
+        ex = exp(a + b * L);
+      double h = d->wcls[x.ks ? x.ks->cls : tf_cls(d, e)] * ex * iphi;
+      double g = d->y[e] * iphi - h;
+      double haa = fit->haa + h, hab = fit->hab + h * L,
+             hbb = fit->hbb + h * L * L;
+      double gd = g / (haa * hbb - hab * hab);
+      double da = (hbb - hab * L) * gd, db = (haa * L - hab) * gd;
+      if (fabs(da) < 1 && fabs(db) < 0.1) {
+        a += da;
+        b += db;
+      }
+    }
+  } else if (isfinite(fit->pa) && isfinite(fit->a) && isfinite(fit->b) &&
+             fabs(fit->a - fit->pa) < 1 && fabs(fit->b - fit->pb) < 0.1) {
+    /* warm start: the modes of [s, e-2] and [s, e-1] extrapolated (not
+     * after a large move) */
+    a += fit->a - fit->pa;
+    b += fit->b - fit->pb;
+  }
+  fit->pa = fit->a;
+  fit->pb = fit->b;
   kl_eval r, rn;
   kl_eval_at(&x, a, b, &r);
   if (r.f == -INFINITY) {
@@ -337,8 +369,9 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
   if (f == -INFINITY)
     goto fallback;
   for (int it = 0; it < 100; it++) {
-    double da = (r.hbb * r.ga - r.hab * r.gb) / r.det;
-    double db = (r.haa * r.gb - r.hab * r.ga) / r.det;
+    double idet = 1 / r.det;
+    double da = (r.hbb * r.ga - r.hab * r.gb) * idet;
+    double db = (r.haa * r.gb - r.hab * r.ga) * idet;
     if (!isfinite(da) || !isfinite(db))
       goto fallback;
     /* Newton decrement: f rises by about lambda2 / 2 to the mode */
@@ -376,7 +409,8 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
     f = rn.f;
   }
   {
-    double va = r.hbb / r.det, vb = r.haa / r.det, cab = -r.hab / r.det;
+    double idet = 1 / r.det;
+    double va = r.hbb * idet, vb = r.haa * idet, cab = -r.hab * idet;
     double xv = va + L * L * vb + 2 * L * cab;
     /* N(a) N(b) (2 pi)^-1 against the Laplace (2 pi)^+1: they cancel */
     double lp = f - 0.5 * log(v * d->rsd * d->rsd * r.det);
