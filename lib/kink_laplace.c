@@ -56,6 +56,8 @@
 
 #define KL_PRUNE_RUN 14
 #define KL_CACHE_LIMIT ((size_t)200000000)
+/* series up to this length have their segment cache written in place */
+#define KL_DIRECT_DAYS 2048
 
 typedef tf_kfit kl_fit;
 
@@ -123,14 +125,12 @@ static const double kl_band[TF_KS_TERMS + 1] = {
     6.549e-3,  1.768e-2, 3.778e-2, 6.892e-2, 0.1123, 0.1687,
     0.2380,    0.3197,   0.4132,  0.5177,  0.6324};
 /* 1 / (k (k-1)) */
-static const double kl_inv2[TF_KS_TERMS] = {
+static const double kl_inv2[TF_KS_TERMS + 2] = {
     0,          0,          1.0 / 2,    1.0 / 6,    1.0 / 12,  1.0 / 20,
     1.0 / 30,   1.0 / 42,   1.0 / 56,   1.0 / 72,   1.0 / 90,  1.0 / 110,
-    1.0 / 132,  1.0 / 156,  1.0 / 182,  1.0 / 210};
-/* the sums are rebuilt at b when more terms than this would be needed */
-#ifndef KL_KS_USE
-#define KL_KS_USE TF_KS_TERMS
-#endif
+    1.0 / 132,  1.0 / 156,  1.0 / 182,  1.0 / 210,  1.0 / 240, 1.0 / 272};
+/* the branch-free search in ks_sums is written for 16 terms */
+_Static_assert(TF_KS_TERMS == 16, "ks_sums searches a table of 16");
 
 /* Day t (class cl) added to the sums of the start s.  The powers of u
  * run in four interleaved chains (u^k, u^{k+1}, u^{k+2}, u^{k+3} times
@@ -216,16 +216,18 @@ typedef struct kl_ctx {
 
 /* E0, E1, E2 at b from the power sums; 0 when they do not apply (b too
  * far from any reference the sums can hold, or no present day). */
-static int ks_sums(kl_ctx *x, double b, double *E) {
+static inline int ks_sums(kl_ctx *x, double b, double *E) {
   tf_ksums *ks = x->ks;
   double dx = b - ks->bref, delta = fabs(dx) * x->L;
   int n;
-  if (delta <= kl_band[KL_KS_USE]) {
-    /* the fewest terms: the thresholds below delta counted (no
-     * branches) */
-    n = 1;
-    for (int k = 1; k < KL_KS_USE; k++)
-      n += delta > kl_band[k];
+  if (delta <= kl_band[TF_KS_TERMS]) {
+    /* the fewest terms: a branch-free binary search of the table */
+    int pos = 0;
+    pos += (kl_band[pos + 8] < delta) * 8;
+    pos += (kl_band[pos + 4] < delta) * 4;
+    pos += (kl_band[pos + 2] < delta) * 2;
+    pos += kl_band[pos + 1] < delta;
+    n = pos + 1;
   } else {
     if (!(fabs(b) * x->L <= KL_BREF_RANGE))
       return 0;
@@ -233,29 +235,27 @@ static int ks_sums(kl_ctx *x, double b, double *E) {
     dx = 0;
     n = 1;
   }
-  /* E_j = sum_k c_k A_{j+k}, c_k = dx^k / k! (two interleaved chains of
-   * c_k = c_{k-2} dx^2 / (k (k-1))), summed from the smallest term, the
-   * three sums interleaved */
-  double cf[TF_KS_TERMS + 1], d2 = dx * dx;
-  cf[0] = 1;
-  cf[1] = dx;
-  for (int k = 2; k < n; k++)
-    cf[k] = cf[k - 2] * (d2 * kl_inv2[k]);
+  /* E_j = sum_k c_k A_{j+k}, c_k = dx^k / k!, in two interleaved chains
+   * c_k = c_{k-2} dx^2 / (k (k-1)) for the even and the odd terms, each
+   * with its own three sums */
   const double *A = ks->A;
-  double e0 = 0, e1 = 0, e2 = 0, o0 = 0, o1 = 0, o2 = 0;
-  int k = n - 1;
-  for (; k >= 1; k -= 2) { /* odd and even terms in separate sums */
-    e0 += cf[k] * A[k];
-    e1 += cf[k] * A[k + 1];
-    e2 += cf[k] * A[k + 2];
-    o0 += cf[k - 1] * A[k - 1];
-    o1 += cf[k - 1] * A[k];
-    o2 += cf[k - 1] * A[k + 1];
+  double d2 = dx * dx, ce = 1, co = dx;
+  double e0 = A[0], e1 = A[1], e2 = A[2], o0 = 0, o1 = 0, o2 = 0;
+  int k = 1;
+  for (; k + 1 < n; k += 2) {
+    o0 += co * A[k];
+    o1 += co * A[k + 1];
+    o2 += co * A[k + 2];
+    ce *= d2 * kl_inv2[k + 1];
+    co *= d2 * kl_inv2[k + 2];
+    e0 += ce * A[k + 1];
+    e1 += ce * A[k + 2];
+    e2 += ce * A[k + 3];
   }
-  if (k == 0) {
-    o0 += A[0];
-    o1 += A[1];
-    o2 += A[2];
+  if (k < n) {
+    o0 += co * A[k];
+    o1 += co * A[k + 1];
+    o2 += co * A[k + 2];
   }
   E[0] = e0 + o0;
   E[1] = e1 + o1;
@@ -263,7 +263,7 @@ static int ks_sums(kl_ctx *x, double b, double *E) {
   return E[0] > 0 && isfinite(E[2]);
 }
 
-static void kl_eval_at(kl_ctx *x, double a, double b, kl_eval *r) {
+static inline void kl_eval_at(kl_ctx *x, double a, double b, kl_eval *r) {
   double E[3];
   if (x->ks && ks_sums(x, b, E)) {
     double za = a - x->a0, ea;
@@ -505,6 +505,7 @@ typedef struct kl_work {
   double *qs, *qg;   /* per active start: e^{sv - max sv}, times the hazard */
   double *hz, *hz0;  /* hazard g(L) / S(L-1), L = 0..n (later, first segment) */
   double *tmp;       /* n, for the backward sums                 */
+  int direct;        /* the cache written in place (see tf_kinkl_run) */
 } kl_work;
 
 static void kl_work_free(kl_work *w) {
@@ -567,9 +568,16 @@ static int kl_forward(twofold_changes *ch, kl_work *w, kl_entries *E) {
       size_t s = w->act[i], L = e - s + 1;
       kl_fit *f = &w->fit[s];
       double lps = tf_seg_kink(d, s, e, w->mm[s], w->mv[s], f);
-      int rc = kl_push(E, s, lps, f->b, f->bvar, ch->msg);
-      if (rc)
-        return rc;
+      if (w->direct) {
+        size_t k = ch->off[s] + (e - s);
+        ch->clogP[k] = lps;
+        ch->cb[k] = f->b;
+        ch->cv[k] = f->bvar;
+      } else {
+        int rc = kl_push(E, s, lps, f->b, f->bvar, ch->msg);
+        if (rc)
+          return rc;
+      }
       ch->stop[s] = e;
       w->wx[i] = f->xm;
       w->wv[i] = f->xv;
@@ -686,38 +694,65 @@ int tf_kinkl_run(twofold_changes *ch) {
     goto out;
   for (size_t s = 0; s < n; s++)
     ch->stop[s] = SIZE_MAX; /* never started */
+  /* the segment cache in per-start order: start s holds e = s..stop[s].
+   * For series up to KL_DIRECT_DAYS the forward pass writes it in place,
+   * each start given room for every end (only the entries written are
+   * ever touched, so the memory used is that of the candidates); longer
+   * series collect e-major entries and reorder them after the pass. */
+  if (n <= KL_DIRECT_DAYS) {
+    size_t total = n * (n + 1) / 2;
+    ch->clogP = malloc(total * sizeof(double));
+    ch->cb = malloc(total * sizeof(double));
+    ch->cv = malloc(total * sizeof(double));
+    if (!ch->clogP || !ch->cb || !ch->cv)
+      goto out;
+    ch->ncache = ch->capcache = total;
+    for (size_t s = 0; s < n; s++)
+      ch->off[s] = s * n - (s * (s - 1)) / 2; /* sum of n - j, j < s */
+    w.direct = 1;
+  }
   rc = kl_forward(ch, &w, &E);
   if (rc)
     goto out;
-  /* per-start layout: start s holds e = s..stop[s]; a start that never
-   * became a candidate holds one impossible entry */
   rc = TWOFOLD_ENOMEM;
-  cnt = calloc(n, sizeof *cnt);
-  if (!cnt)
-    goto out;
-  size_t total = 0;
-  for (size_t s = 0; s < n; s++) {
-    if (ch->stop[s] == SIZE_MAX)
+  if (w.direct) {
+    /* a start that never became a candidate holds one impossible entry */
+    for (size_t s = 0; s < n; s++) {
+      if (ch->stop[s] != SIZE_MAX)
+        continue;
       ch->stop[s] = s;
-    ch->off[s] = total;
-    total += ch->stop[s] - s + 1;
-  }
-  ch->clogP = malloc(total * sizeof(double));
-  ch->cb = malloc(total * sizeof(double));
-  ch->cv = malloc(total * sizeof(double));
-  if (!ch->clogP || !ch->cb || !ch->cv)
-    goto out;
-  ch->ncache = ch->capcache = total;
-  for (size_t i = 0; i < total; i++) {
-    ch->clogP[i] = -INFINITY;
-    ch->cb[i] = 0;
-    ch->cv[i] = 0;
-  }
-  for (size_t i = 0; i < E.n; i++) {
-    size_t s = E.s[i], k = ch->off[s] + cnt[s]++;
-    ch->clogP[k] = E.lp[i];
-    ch->cb[k] = E.b[i];
-    ch->cv[k] = E.v[i];
+      ch->clogP[ch->off[s]] = -INFINITY;
+      ch->cb[ch->off[s]] = 0;
+      ch->cv[ch->off[s]] = 0;
+    }
+  } else {
+    cnt = calloc(n, sizeof *cnt);
+    if (!cnt)
+      goto out;
+    size_t total = 0;
+    for (size_t s = 0; s < n; s++) {
+      if (ch->stop[s] == SIZE_MAX)
+        ch->stop[s] = s;
+      ch->off[s] = total;
+      total += ch->stop[s] - s + 1;
+    }
+    ch->clogP = malloc(total * sizeof(double));
+    ch->cb = malloc(total * sizeof(double));
+    ch->cv = malloc(total * sizeof(double));
+    if (!ch->clogP || !ch->cb || !ch->cv)
+      goto out;
+    ch->ncache = ch->capcache = total;
+    for (size_t i = 0; i < total; i++) {
+      ch->clogP[i] = -INFINITY;
+      ch->cb[i] = 0;
+      ch->cv[i] = 0;
+    }
+    for (size_t i = 0; i < E.n; i++) {
+      size_t s = E.s[i], k = ch->off[s] + cnt[s]++;
+      ch->clogP[k] = E.lp[i];
+      ch->cb[k] = E.b[i];
+      ch->cv[k] = E.v[i];
+    }
   }
   /* backward over the cache (METHODS A2): the terms against their
    * largest, one exp each */
