@@ -116,6 +116,8 @@ typedef struct tf_kfit {
   size_t next;   /* e + 1 of the fit the next three describe (0: none) */
   double haa, hab, hbb; /* negative Hessian at its last evaluation     */
   double a0, ea0; /* e^{a0} computed by exp (ea0 0: none)              */
+  double kv, kphi, krsd, iv, iphi, irsd2; /* 1/v, 1/phi, 1/rsd^2 for the
+                    v, phi, rsd they were computed from (zero: none)   */
 } tf_kfit;
 /* log P(s, e) without the per-day constants (tf_cpdata.cconst); updates
  * *fit (warm start in, mode out).  Cheapest when called for e = s, s+1,

@@ -304,9 +304,18 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
   double L = (double)(e - s + 1);
   double a = isfinite(fit->a) ? fit->a : m;
   double b = isfinite(fit->b) ? fit->b : d->rmean;
-  double iphi = 1 / d->phi;
-  kl_ctx x = {d, s, e, c, Y, S1, m, v, L, iphi, 1 / v,
-              1 / (d->rsd * d->rsd), NULL, fit->a0, fit->ea0};
+  if (!(fit->kv == v && fit->kphi == d->phi && fit->krsd == d->rsd)) {
+    /* the start's constants (the same for every end) */
+    fit->kv = v;
+    fit->kphi = d->phi;
+    fit->krsd = d->rsd;
+    fit->iv = 1 / v;
+    fit->iphi = 1 / d->phi;
+    fit->irsd2 = 1 / (d->rsd * d->rsd);
+  }
+  double iphi = fit->iphi;
+  kl_ctx x = {d, s, e, c, Y, S1, m, v, L, iphi, fit->iv, fit->irsd2, NULL,
+              fit->a0, fit->ea0};
   if (!(x.ea0 > 0)) {
     x.a0 = a;
     x.ea0 = exp(a);
