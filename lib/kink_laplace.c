@@ -167,18 +167,95 @@ static void ks_add(const tf_cpdata *d, tf_ksums *ks, size_t s, size_t t,
     A[k++] += t2;
 }
 
+/* The sums of the days s..e at bref, from scratch: in blocks of 64 days,
+ * the weights w_t e^{bref u} first (e^{bref u} as ks_add carries it),
+ * then the powers k = 0..8 and 9..17 in two passes whose sums stay in
+ * registers. */
 static void ks_build(const tf_cpdata *d, tf_ksums *ks, size_t s, size_t e,
                      double bref) {
+  _Static_assert(TF_KS_TERMS + 2 == 18, "ks_build sums 18 powers");
   memset(ks->A, 0, sizeof ks->A);
   ks->bref = bref;
   ks->eb = exp(bref);
-  ks->z = 1;
+  double z = 1, c[64], uu[64];
   int cl = tf_cls(d, s);
-  for (size_t t = s; t <= e; t++) {
-    ks_add(d, ks, s, t, cl);
-    ks->cls = cl;
-    cl = cl == 6 ? 0 : cl + 1;
+  for (size_t t0 = s; t0 <= e; t0 += 64) {
+    size_t m = e - t0 + 1 < 64 ? e - t0 + 1 : 64;
+    for (size_t i = 0; i < m; i++) {
+      size_t t = t0 + i, iu = t - s + 1;
+      if (iu % KL_Z_EXACT == 0)
+        z = exp(bref * (double)iu);
+      else
+        z *= ks->eb;
+      c[i] = tf_isnan(d->y[t]) ? 0 : d->wcls[cl] * z;
+      uu[i] = (double)iu;
+      ks->cls = cl;
+      cl = cl == 6 ? 0 : cl + 1;
+    }
+    double s0 = 0, s1 = 0, s2 = 0, s3 = 0, s4 = 0, s5 = 0, s6 = 0, s7 = 0,
+           s8 = 0;
+    for (size_t i = 0; i < m; i++) {
+      double u = uu[i], p = c[i];
+      s0 += p;
+      p *= u;
+      s1 += p;
+      p *= u;
+      s2 += p;
+      p *= u;
+      s3 += p;
+      p *= u;
+      s4 += p;
+      p *= u;
+      s5 += p;
+      p *= u;
+      s6 += p;
+      p *= u;
+      s7 += p;
+      p *= u;
+      s8 += p;
+    }
+    double *A = ks->A;
+    A[0] += s0;
+    A[1] += s1;
+    A[2] += s2;
+    A[3] += s3;
+    A[4] += s4;
+    A[5] += s5;
+    A[6] += s6;
+    A[7] += s7;
+    A[8] += s8;
+    s0 = s1 = s2 = s3 = s4 = s5 = s6 = s7 = s8 = 0;
+    for (size_t i = 0; i < m; i++) {
+      double u = uu[i], u2 = u * u, u4 = u2 * u2, p = c[i] * (u4 * u4 * u);
+      s0 += p;
+      p *= u;
+      s1 += p;
+      p *= u;
+      s2 += p;
+      p *= u;
+      s3 += p;
+      p *= u;
+      s4 += p;
+      p *= u;
+      s5 += p;
+      p *= u;
+      s6 += p;
+      p *= u;
+      s7 += p;
+      p *= u;
+      s8 += p;
+    }
+    A[9] += s0;
+    A[10] += s1;
+    A[11] += s2;
+    A[12] += s3;
+    A[13] += s4;
+    A[14] += s5;
+    A[15] += s6;
+    A[16] += s7;
+    A[17] += s8;
   }
+  ks->z = z;
   ks->e = e;
   ks->live = 1;
 }
