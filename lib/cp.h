@@ -94,8 +94,8 @@ double tf_seg_jump(const tf_cpdata *d, size_t s, size_t e, double *b,
 /* Power sums of a kink segment whose start s is fixed while its end
  * grows, at a reference growth rate bref:
  *   A[k] = sum over the present days t = s..e of w_t u^k e^{bref u},
- *   u = t - s + 1 (the distance from the knot), k = 0..TF_KS_TERMS+1,
- * from which E0, E1, E2 at b near bref follow by a Taylor series in
+ *   u = t - s + 1 (the distance from the knot), k = 0..TF_KS_TERMS+2,
+ * from which E0..E3 at b near bref follow by a Taylor series in
  * b - bref (kink_laplace.c).  All zero (live 0): not built yet. */
 #define TF_KS_TERMS 16
 typedef struct tf_ksums {
@@ -104,7 +104,7 @@ typedef struct tf_ksums {
   size_t e;      /* last day added                                    */
   double bref;   /* reference growth rate                             */
   double eb, z;  /* e^{bref} and e^{bref (e - s + 1)}                 */
-  double A[TF_KS_TERMS + 2];
+  double A[TF_KS_TERMS + 3];
 } tf_ksums;
 typedef struct tf_kfit {
   double a, b;   /* posterior mode of (x_s, b); in: starting values (NAN:
@@ -115,6 +115,7 @@ typedef struct tf_kfit {
   tf_ksums ks;   /* power sums of [s, e] (zero: none yet)              */
   size_t next;   /* e + 1 of the fit the next three describe (0: none) */
   double haa, hab, hbb; /* negative Hessian at its last evaluation     */
+  double p3;     /* there e^a E3 / phi (NAN: not known)                */
   double a0, ea0; /* e^{a0} computed by exp (ea0 0: none)              */
   double kv, kphi, krsd, iv, iphi, irsd2; /* 1/v, 1/phi, 1/rsd^2 for the
                     v, phi, rsd they were computed from (zero: none)   */

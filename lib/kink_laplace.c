@@ -65,12 +65,14 @@ typedef tf_kfit kl_fit;
  * normalising constants); the gradient and the negative Hessian. */
 typedef struct kl_eval {
   double f, ga, gb, haa, hab, hbb, det;
+  double p3; /* e^a E3 / phi, for the next warm start (NAN: none) */
 } kl_eval;
 
 static void kl_evaluate(const tf_cpdata *d, size_t s, size_t e, double c,
                         double Y, double S1, double m, double v, double a,
                         double b, kl_eval *r) {
   double lE0, m1, m2;
+  r->p3 = NAN;
   tf_esums(d, s, e, c, b, &lE0, &m1, &m2);
   double phi = d->phi, rsd2 = d->rsd * d->rsd;
   double A = lE0 == -INFINITY ? 0 : exp(a + lE0);
@@ -149,7 +151,7 @@ static void ks_add(const tf_cpdata *d, tf_ksums *ks, size_t s, size_t t,
   double t1 = t0 * u, t2 = t0 * u2, t3 = t1 * u2;
   double *A = ks->A;
   int k = 0;
-  for (; k + 4 <= TF_KS_TERMS + 2; k += 4) {
+  for (; k + 4 <= TF_KS_TERMS + 3; k += 4) {
     A[k] += t0;
     A[k + 1] += t1;
     A[k + 2] += t2;
@@ -159,21 +161,21 @@ static void ks_add(const tf_cpdata *d, tf_ksums *ks, size_t s, size_t t,
     t2 *= u4;
     t3 *= u4;
   }
-  if (k < TF_KS_TERMS + 2)
+  if (k < TF_KS_TERMS + 3)
     A[k++] += t0;
-  if (k < TF_KS_TERMS + 2)
+  if (k < TF_KS_TERMS + 3)
     A[k++] += t1;
-  if (k < TF_KS_TERMS + 2)
+  if (k < TF_KS_TERMS + 3)
     A[k++] += t2;
 }
 
 /* The sums of the days s..e at bref, from scratch: in blocks of 64 days,
  * the weights w_t e^{bref u} first (e^{bref u} as ks_add carries it),
- * then the powers k = 0..8 and 9..17 in two passes whose sums stay in
+ * then the powers k = 0..8 and 9..18 in two passes whose sums stay in
  * registers. */
 static void ks_build(const tf_cpdata *d, tf_ksums *ks, size_t s, size_t e,
                      double bref) {
-  _Static_assert(TF_KS_TERMS + 2 == 18, "ks_build sums 18 powers");
+  _Static_assert(TF_KS_TERMS + 3 == 19, "ks_build sums 19 powers");
   memset(ks->A, 0, sizeof ks->A);
   ks->bref = bref;
   ks->eb = exp(bref);
@@ -225,6 +227,7 @@ static void ks_build(const tf_cpdata *d, tf_ksums *ks, size_t s, size_t e,
     A[7] += s7;
     A[8] += s8;
     s0 = s1 = s2 = s3 = s4 = s5 = s6 = s7 = s8 = 0;
+    double s9 = 0;
     for (size_t i = 0; i < m; i++) {
       double u = uu[i], u2 = u * u, u4 = u2 * u2, p = c[i] * (u4 * u4 * u);
       s0 += p;
@@ -244,6 +247,8 @@ static void ks_build(const tf_cpdata *d, tf_ksums *ks, size_t s, size_t e,
       s7 += p;
       p *= u;
       s8 += p;
+      p *= u;
+      s9 += p;
     }
     A[9] += s0;
     A[10] += s1;
@@ -254,6 +259,7 @@ static void ks_build(const tf_cpdata *d, tf_ksums *ks, size_t s, size_t e,
     A[15] += s6;
     A[16] += s7;
     A[17] += s8;
+    A[18] += s9;
   }
   ks->z = z;
   ks->e = e;
@@ -317,31 +323,36 @@ static inline int ks_sums(kl_ctx *x, double b, double *E) {
    * with its own three sums */
   const double *A = ks->A;
   double d2 = dx * dx, ce = 1, co = dx;
-  double e0 = A[0], e1 = A[1], e2 = A[2], o0 = 0, o1 = 0, o2 = 0;
+  double e0 = A[0], e1 = A[1], e2 = A[2], e3 = A[3];
+  double o0 = 0, o1 = 0, o2 = 0, o3 = 0;
   int k = 1;
   for (; k + 1 < n; k += 2) {
     o0 += co * A[k];
     o1 += co * A[k + 1];
     o2 += co * A[k + 2];
+    o3 += co * A[k + 3];
     ce *= d2 * kl_inv2[k + 1];
     co *= d2 * kl_inv2[k + 2];
     e0 += ce * A[k + 1];
     e1 += ce * A[k + 2];
     e2 += ce * A[k + 3];
+    e3 += ce * A[k + 4];
   }
   if (k < n) {
     o0 += co * A[k];
     o1 += co * A[k + 1];
     o2 += co * A[k + 2];
+    o3 += co * A[k + 3];
   }
   E[0] = e0 + o0;
   E[1] = e1 + o1;
   E[2] = e2 + o2;
+  E[3] = e3 + o3;
   return E[0] > 0 && isfinite(E[2]);
 }
 
 static inline void kl_eval_at(kl_ctx *x, double a, double b, kl_eval *r) {
-  double E[3];
+  double E[4];
   if (x->ks && ks_sums(x, b, E)) {
     double za = a - x->a0, ea;
     if (fabs(za) <= 0.02) {
@@ -367,6 +378,7 @@ static inline void kl_eval_at(kl_ctx *x, double a, double b, kl_eval *r) {
       r->hab = P1;
       r->hbb = P2 + x->irsd2;
       /* haa hbb - hab^2 as a sum of positive terms (METHODS B4) */
+      r->p3 = ep * E[3];
       r->det = V + P * x->irsd2 + P2 * x->iv + x->iv * x->irsd2;
       return;
     }
@@ -428,8 +440,20 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
       double g = d->y[e] * iphi - h;
       double haa = fit->haa + h, hab = fit->hab + h * L,
              hbb = fit->hbb + h * L * L;
-      double gd = g / (haa * hbb - hab * hab);
-      double da = (hbb - hab * L) * gd, db = (haa * L - hab) * gd;
+      double idet = 1 / (haa * hbb - hab * hab);
+      double da = (hbb - hab * L) * g * idet, db = (haa * L - hab) * g * idet;
+      if (isfinite(fit->p3)) {
+        /* and the second-order part: the gradient that step leaves,
+         * -D3P[d, d] / 2 from the third derivatives of P = e^a E0 / phi
+         * (P, P m1, P m2, P m3, the day's terms included), taken out by
+         * the same Hessian */
+        double L2 = L * L, P0 = fit->haa - x.iv + h, P1 = hab,
+               P2 = hbb - x.irsd2, P3 = fit->p3 + h * L2 * L;
+        double ra = -0.5 * (P0 * da * da + 2 * P1 * da * db + P2 * db * db);
+        double rb = -0.5 * (P1 * da * da + 2 * P2 * da * db + P3 * db * db);
+        da += (hbb * ra - hab * rb) * idet;
+        db += (haa * rb - hab * ra) * idet;
+      }
       if (fabs(da) < 1 && fabs(db) < 0.1) {
         a += da;
         b += db;
@@ -452,14 +476,22 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
     kl_eval_at(&x, a, b, &r);
   }
   double f = r.f;
+  /* Newton from the warm start; should it fail or stall away from the
+   * mode (a prior level far from the data's, after counts of very
+   * different sizes), once more from the level of the data with the
+   * closed-form sums, and the better of the two kept */
+  int retry = 0, conv = 0;
+  kl_eval r1 = r;
+  double a1 = NAN, b1 = NAN, f1 = -INFINITY;
+newton:
   if (f == -INFINITY)
-    goto fallback;
+    goto failed;
   for (int it = 0; it < 100; it++) {
     double idet = 1 / r.det;
     double da = (r.hbb * r.ga - r.hab * r.gb) * idet;
     double db = (r.haa * r.gb - r.hab * r.ga) * idet;
     if (!isfinite(da) || !isfinite(db))
-      goto fallback;
+      goto failed;
     /* Newton decrement: f rises by about lambda2 / 2 to the mode */
     double lambda2 = r.ga * da + r.gb * db;
     if (lambda2 < 1e-6) {
@@ -469,6 +501,7 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
       f += 0.5 * lambda2;
       a += da;
       b += db;
+      conv = 1;
       break;
     }
     /* a trust region: at most 5 in the log-level and 1 in the growth
@@ -488,13 +521,26 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
       h++;
     }
     if (!(rn.f >= f - 1e-12 * fabs(f)))
-      break; /* no ascent left: at the mode to double precision */
+      break; /* no ascent left */
     a += t * da;
     b += t * db;
     r = rn;
     f = rn.f;
   }
-  {
+  if (!conv && !retry) {
+    r1 = r;
+    a1 = a;
+    b1 = b;
+    f1 = f;
+    goto again;
+  }
+  if (!conv && f1 > f) {
+    r = r1;
+    a = a1;
+    b = b1;
+    f = f1;
+  }
+result: {
     double idet = 1 / r.det;
     double va = r.hbb * idet, vb = r.haa * idet, cab = -r.hab * idet;
     double xv = va + L * L * vb + 2 * L * cab;
@@ -511,10 +557,37 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
       fit->haa = r.haa;
       fit->hab = r.hab;
       fit->hbb = r.hbb;
+      fit->p3 = r.p3;
       fit->a0 = x.a0;
       fit->ea0 = x.ea0;
       return lp;
     }
+    if (!retry)
+      goto again;
+  }
+failed:
+  if (retry) {
+    if (f1 == -INFINITY)
+      goto fallback;
+    r = r1; /* the stalled first pass, once */
+    a = a1;
+    b = b1;
+    f = f1;
+    f1 = -INFINITY;
+    goto result;
+  }
+again:
+  retry = 1;
+  {
+    double lE0;
+    tf_esums(d, s, e, c, d->rmean, &lE0, NULL, NULL);
+    b = d->rmean;
+    a = isfinite(lE0) ? log(Y + 0.5) - lE0 : m;
+    x.ks = NULL;
+    kl_eval_at(&x, a, b, &r);
+    f = r.f;
+    conv = 0;
+    goto newton;
   }
 fallback:
   /* no usable mode (counts and priors far apart beyond double range): the

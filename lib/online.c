@@ -375,6 +375,17 @@ static int add_day(twofold_online *on, double y) {
   on->cv[k] = v;
   lsum_add(&zm, &zs, on->cw[k]);
   double lz = zm == -INFINITY ? -INFINITY : zm + log(zs);
+  if (lz == -INFINITY) {
+    /* the day is impossible under every candidate (counts beyond what
+     * the segment fits can hold): the filter starts again at this day,
+     * with the day's predictive 0 */
+    move_candidate(on, 0, k);
+    on->nc = 1;
+    on->cw[0] = 0;
+    on->lpred = -INFINITY;
+    on->t = t + 1;
+    return 0;
+  }
   for (size_t i = 0; i < on->nc; i++)
     on->cw[i] -= lz;
   on->lpred = lz + cst;
