@@ -24,10 +24,27 @@
  *               N(x_s; m_s, v_s) N(b; mean, sd^2) dx_s db
  *
  * by the two-dimensional Laplace approximation (METHODS B4: Newton on
- * (x_s, b) with the weekday-class geometric sums of B2-B3, O(7) per
- * evaluation, warm-started from [s, e-1]), whose normal posterior also
- * gives the segment's growth rate and the end level x_{e+1} for the next
- * message.  With these P(s, e) the posterior is that of independent
+ * (x_s, b)), whose normal posterior also gives the segment's growth rate
+ * and the end level x_{e+1} for the next message.
+ *
+ * Cost per candidate segment.  The knot, and so the origin u = t - s + 1
+ * of the sums E_k = sum w_t u^k e^{b u}, is fixed per start while the end
+ * grows, so each start keeps power sums A_k at a reference growth rate
+ * (tf_ksums: a day added in O(18), no exp), from which E0..E3 at b near
+ * the reference follow by a Taylor series whose truncation is bounded
+ * below the unit roundoff (see "incremental power sums" below; the
+ * sums are rebuilt, O(L), when b leaves the band, and the closed forms
+ * of METHODS B2-B3, tf_esums, take over where |b| L is too large for
+ * them).  The fit of [s, e] starts from that of [s, e-1] moved by one
+ * Newton step for the new day's term, with the kept Hessian and the
+ * second-order term from E3, so that about 96% of the candidates need
+ * one evaluation (the Newton decrement below 1e-6 at once); a Newton
+ * that fails or stalls is retried from the level of the data with the
+ * closed forms.  e^a comes from an exact e^{a0} by a short series while
+ * |a - a0| <= 0.02.  The forward sums over the starts take one exp per
+ * candidate (the filtered weights against their largest; the
+ * new-segment weights are these times the tabled hazard), the backward
+ * sum one exp per cached segment.  With these P(s, e) the posterior is that of independent
  * segments, so the exact forward, backward, count, most-probable and
  * sampling recursions of the JUMP and LEVEL kinds are reused unchanged.
  *
