@@ -731,12 +731,8 @@ static int kl_forward(twofold_changes *ch, kl_work *w, kl_entries *E) {
     if (ch->Fa[e] > -INFINITY) {
       w->act[na] = e;
       w->run[e] = 0;
-      w->fit[e].a = w->mm[e];
-      w->fit[e].b = d->rmean;
-      w->fit[e].pa = w->fit[e].pb = NAN;
-      w->fit[e].ks.live = 0;
-      w->fit[e].next = 0;
-      w->fit[e].ea0 = 0;
+      w->fit[e] = (kl_fit){.a = w->mm[e], .b = d->rmean, .pa = NAN,
+                           .pb = NAN};
       na++;
     }
     double ref = -INFINITY;
