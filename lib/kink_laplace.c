@@ -498,6 +498,7 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
    * different sizes), once more from the level of the data with the
    * closed-form sums, and the better of the two kept */
   int retry = 0, conv = 0;
+  double idet_r = NAN; /* 1 / r.det, once known for the final r */
   kl_eval r1 = r;
   double a1 = NAN, b1 = NAN, f1 = -INFINITY;
 newton:
@@ -519,6 +520,7 @@ newton:
       a += da;
       b += db;
       conv = 1;
+      idet_r = idet;
       break;
     }
     /* a trust region: at most 5 in the log-level and 1 in the growth
@@ -558,7 +560,7 @@ newton:
     f = f1;
   }
 result: {
-    double idet = 1 / r.det;
+    double idet = isnan(idet_r) ? 1 / r.det : idet_r;
     double va = r.hbb * idet, vb = r.haa * idet, cab = -r.hab * idet;
     double xv = va + L * L * vb + 2 * L * cab;
     /* N(a) N(b) (2 pi)^-1 against the Laplace (2 pi)^+1: they cancel */
@@ -595,6 +597,7 @@ failed:
   }
 again:
   retry = 1;
+  idet_r = NAN;
   {
     double lE0;
     tf_esums(d, s, e, c, d->rmean, &lE0, NULL, NULL);
