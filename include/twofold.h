@@ -873,7 +873,9 @@ TWOFOLD_API int twofold_online_p_recent(const twofold_online *on, size_t k,
  * approximation of the mixture). */
 TWOFOLD_API int twofold_online_growth(const twofold_online *on, double *mean,
                                       double *lo, double *hi);
-/* log p(y_t | y_1..t-1) of the last day added (NaN if none). */
+/* log p(y_t | y_1..t-1) of the last day added (NaN if none; -inf when the
+ * day is impossible under every candidate, the filter then starting again
+ * at that day). */
 TWOFOLD_API double twofold_online_log_predictive(const twofold_online *on);
 
 #ifdef __cplusplus

@@ -149,15 +149,39 @@ double tf_seg_jump(const tf_cpdata *d, size_t s, size_t e, double *b,
 /* KINK segment (kink_laplace.c): the Laplace fit of [s, e] given the
  * level at its knot x_s ~ N(m, v) (METHODS B4; the knot sits at day s-1
  * and eta_t = x_s + b (t - s + 1)). */
+/* Power sums of a kink segment whose start s is fixed while its end
+ * grows, at a reference growth rate bref:
+ *   A[k] = sum over the present days t = s..e of w_t u^k e^{bref u},
+ *   u = t - s + 1 (the distance from the knot), k = 0..TF_KS_TERMS+2,
+ * from which E0..E3 at b near bref follow by a Taylor series in
+ * b - bref (kink_laplace.c).  All zero (live 0): not built yet. */
+#define TF_KS_TERMS 16
+typedef struct tf_ksums {
+  int live;      /* 1: A holds the days s..e                          */
+  int cls;       /* weekday class of day e                            */
+  size_t e;      /* last day added                                    */
+  double bref;   /* reference growth rate                             */
+  double eb, z;  /* e^{bref} and e^{bref (e - s + 1)}                 */
+  double A[TF_KS_TERMS + 3];
+} tf_ksums;
 typedef struct tf_kfit {
   double a, b;   /* posterior mode of (x_s, b); in: starting values (NAN:
                     from the prior) */
   double pa, pb; /* the previous mode, for extrapolation (NAN: none)   */
   double bvar;   /* posterior variance of b                            */
   double xm, xv; /* mean and variance of the end level a + b (e-s+1)   */
+  tf_ksums ks;   /* power sums of [s, e] (zero: none yet)              */
+  size_t next;   /* e + 1 of the fit the next three describe (0: none) */
+  double haa, hab, hbb; /* negative Hessian at its last evaluation     */
+  double p3;     /* there e^a E3 / phi (NAN: not known)                */
+  double a0, ea0; /* e^{a0} computed by exp (ea0 0: none)              */
+  double kv, kphi, krsd, iv, iphi, irsd2; /* 1/v, 1/phi, 1/rsd^2 for the
+                    v, phi, rsd they were computed from (zero: none)   */
 } tf_kfit;
 /* log P(s, e) without the per-day constants (tf_cpdata.cconst); updates
- * *fit (warm start in, mode out). */
+ * *fit (warm start in, mode out).  Cheapest when called for e = s, s+1,
+ * ... in turn with the same *fit, which then carries the power sums
+ * forward; any other call rebuilds them (O(e - s)). */
 double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
                    double v, tf_kfit *fit);
 

@@ -24,10 +24,27 @@
  *               N(x_s; m_s, v_s) N(b; mean, sd^2) dx_s db
  *
  * by the two-dimensional Laplace approximation (METHODS B4: Newton on
- * (x_s, b) with the weekday-class geometric sums of B2-B3, O(7) per
- * evaluation, warm-started from [s, e-1]), whose normal posterior also
- * gives the segment's growth rate and the end level x_{e+1} for the next
- * message.  With these P(s, e) the posterior is that of independent
+ * (x_s, b)), whose normal posterior also gives the segment's growth rate
+ * and the end level x_{e+1} for the next message.
+ *
+ * Cost per candidate segment.  The knot, and so the origin u = t - s + 1
+ * of the sums E_k = sum w_t u^k e^{b u}, is fixed per start while the end
+ * grows, so each start keeps power sums A_k at a reference growth rate
+ * (tf_ksums: a day added in O(18), no exp), from which E0..E3 at b near
+ * the reference follow by a Taylor series whose truncation is bounded
+ * below the unit roundoff (see "incremental power sums" below; the
+ * sums are rebuilt, O(L), when b leaves the band, and the closed forms
+ * of METHODS B2-B3, tf_esums, take over where |b| L is too large for
+ * them).  The fit of [s, e] starts from that of [s, e-1] moved by one
+ * Newton step for the new day's term, with the kept Hessian and the
+ * second-order term from E3, so that about 96% of the candidates need
+ * one evaluation (the Newton decrement below 1e-6 at once); a Newton
+ * that fails or stalls is retried from the level of the data with the
+ * closed forms.  e^a comes from an exact e^{a0} by a short series while
+ * |a - a0| <= 0.02.  The forward sums over the starts take one exp per
+ * candidate (the filtered weights against their largest; the
+ * new-segment weights are these times the tabled hazard), the backward
+ * sum one exp per cached segment.  With these P(s, e) the posterior is that of independent
  * segments, so the exact forward, backward, count, most-probable and
  * sampling recursions of the JUMP and LEVEL kinds are reused unchanged.
  *
@@ -56,6 +73,8 @@
 
 #define KL_PRUNE_RUN 14
 #define KL_CACHE_LIMIT ((size_t)200000000)
+/* series up to this length have their segment cache written in place */
+#define KL_DIRECT_DAYS 2048
 
 typedef tf_kfit kl_fit;
 
@@ -63,12 +82,14 @@ typedef tf_kfit kl_fit;
  * normalising constants); the gradient and the negative Hessian. */
 typedef struct kl_eval {
   double f, ga, gb, haa, hab, hbb, det;
+  double p3; /* e^a E3 / phi, for the next warm start (NAN: none) */
 } kl_eval;
 
 static void kl_evaluate(const tf_cpdata *d, size_t s, size_t e, double c,
                         double Y, double S1, double m, double v, double a,
                         double b, kl_eval *r) {
   double lE0, m1, m2;
+  r->p3 = NAN;
   tf_esums(d, s, e, c, b, &lE0, &m1, &m2);
   double phi = d->phi, rsd2 = d->rsd * d->rsd;
   double A = lE0 == -INFINITY ? 0 : exp(a + lE0);
@@ -92,6 +113,296 @@ static void kl_evaluate(const tf_cpdata *d, size_t s, size_t e, double c,
   r->det = P * P * V + P / rsd2 + P * m2 / v + 1 / (v * rsd2);
 }
 
+/* ---- incremental power sums (tf_ksums) ---------------------------------
+ *
+ * For a start s the sums A_k = sum_t w_t u^k e^{bref u}, u = t - s + 1,
+ * over the present days of [s, e] take O(K) to extend by a day, and
+ *
+ *     E_j(b) = sum_k (b - bref)^k / k!  A_{j+k},   j = 0, 1, 2,
+ *
+ * a Taylor series in b - bref.  With delta = |b - bref| L (L = e - s + 1,
+ * so |b - bref| u <= delta for every day), the remainder after n terms is
+ * at most delta^n / n! e^delta A_j, and E_j >= e^-delta A_j, so n terms
+ * with delta^n / n! e^{2 delta} <= 2^-53 (the table below) leave a
+ * relative truncation error in E_j below the unit roundoff.  The factor
+ * e^{bref u} is carried by multiplication with e^{bref} and recomputed
+ * by exp every KL_Z_EXACT days (relative drift at most 2 KL_Z_EXACT ulp).
+ * The error of e^a E0 / phi in f is then a few ulp times (e^{2 delta} +
+ * 2 KL_Z_EXACT) of P itself, i.e. at most about 1e-14 P: 1e-9 for a
+ * segment holding 1e5 (tempered) counts.  When b leaves the band
+ * (delta > kl_band[TF_KS_TERMS]) the sums are rebuilt at bref = b, O(L). */
+#define KL_Z_EXACT 8
+/* |bref| L beyond which the closed forms of tf_esums take over (the sums
+ * would hold numbers near the double range) */
+#define KL_BREF_RANGE 300.0
+#define KL_KS_MAXLEN 20000
+
+/* kl_band[n]: the largest delta for n terms (delta^n/n! e^{2 delta} <=
+ * 2^-53), rounded down */
+static const double kl_band[TF_KS_TERMS + 1] = {
+    0,         1.1e-16,  1.49e-8, 8.73e-6, 2.27e-4, 1.677e-3,
+    6.549e-3,  1.768e-2, 3.778e-2, 6.892e-2, 0.1123, 0.1687,
+    0.2380,    0.3197,   0.4132,  0.5177,  0.6324};
+/* 1 / (k (k-1)) */
+static const double kl_inv2[TF_KS_TERMS + 2] = {
+    0,          0,          1.0 / 2,    1.0 / 6,    1.0 / 12,  1.0 / 20,
+    1.0 / 30,   1.0 / 42,   1.0 / 56,   1.0 / 72,   1.0 / 90,  1.0 / 110,
+    1.0 / 132,  1.0 / 156,  1.0 / 182,  1.0 / 210,  1.0 / 240, 1.0 / 272};
+/* the branch-free search in ks_sums is written for 16 terms */
+_Static_assert(TF_KS_TERMS == 16, "ks_sums searches a table of 16");
+
+/* Day t (class cl) added to the sums of the start s.  The powers of u
+ * run in four interleaved chains (u^k, u^{k+1}, u^{k+2}, u^{k+3} times
+ * u^4), so that the latency is a quarter of one chain's. */
+static void ks_add(const tf_cpdata *d, tf_ksums *ks, size_t s, size_t t,
+                   int cl) {
+  size_t iu = t - s + 1;
+  double u = (double)iu;
+  if (iu % KL_Z_EXACT == 0)
+    ks->z = exp(ks->bref * u);
+  else
+    ks->z *= ks->eb;
+  if (tf_isnan(d->y[t]))
+    return;
+  double t0 = d->wcls[cl] * ks->z, u2 = u * u, u4 = u2 * u2;
+  double t1 = t0 * u, t2 = t0 * u2, t3 = t1 * u2;
+  double *A = ks->A;
+  int k = 0;
+  for (; k + 4 <= TF_KS_TERMS + 3; k += 4) {
+    A[k] += t0;
+    A[k + 1] += t1;
+    A[k + 2] += t2;
+    A[k + 3] += t3;
+    t0 *= u4;
+    t1 *= u4;
+    t2 *= u4;
+    t3 *= u4;
+  }
+  if (k < TF_KS_TERMS + 3)
+    A[k++] += t0;
+  if (k < TF_KS_TERMS + 3)
+    A[k++] += t1;
+  if (k < TF_KS_TERMS + 3)
+    A[k++] += t2;
+}
+
+/* The sums of the days s..e at bref, from scratch: in blocks of 64 days,
+ * the weights w_t e^{bref u} first (e^{bref u} as ks_add carries it),
+ * then the powers k = 0..8 and 9..18 in two passes whose sums stay in
+ * registers. */
+static void ks_build(const tf_cpdata *d, tf_ksums *ks, size_t s, size_t e,
+                     double bref) {
+  _Static_assert(TF_KS_TERMS + 3 == 19, "ks_build sums 19 powers");
+  memset(ks->A, 0, sizeof ks->A);
+  ks->bref = bref;
+  ks->eb = exp(bref);
+  double z = 1, c[64], uu[64];
+  int cl = tf_cls(d, s);
+  for (size_t t0 = s; t0 <= e; t0 += 64) {
+    size_t m = e - t0 + 1 < 64 ? e - t0 + 1 : 64;
+    for (size_t i = 0; i < m; i++) {
+      size_t t = t0 + i, iu = t - s + 1;
+      if (iu % KL_Z_EXACT == 0)
+        z = exp(bref * (double)iu);
+      else
+        z *= ks->eb;
+      c[i] = tf_isnan(d->y[t]) ? 0 : d->wcls[cl] * z;
+      uu[i] = (double)iu;
+      ks->cls = cl;
+      cl = cl == 6 ? 0 : cl + 1;
+    }
+    double s0 = 0, s1 = 0, s2 = 0, s3 = 0, s4 = 0, s5 = 0, s6 = 0, s7 = 0,
+           s8 = 0;
+    for (size_t i = 0; i < m; i++) {
+      double u = uu[i], p = c[i];
+      s0 += p;
+      p *= u;
+      s1 += p;
+      p *= u;
+      s2 += p;
+      p *= u;
+      s3 += p;
+      p *= u;
+      s4 += p;
+      p *= u;
+      s5 += p;
+      p *= u;
+      s6 += p;
+      p *= u;
+      s7 += p;
+      p *= u;
+      s8 += p;
+    }
+    double *A = ks->A;
+    A[0] += s0;
+    A[1] += s1;
+    A[2] += s2;
+    A[3] += s3;
+    A[4] += s4;
+    A[5] += s5;
+    A[6] += s6;
+    A[7] += s7;
+    A[8] += s8;
+    s0 = s1 = s2 = s3 = s4 = s5 = s6 = s7 = s8 = 0;
+    double s9 = 0;
+    for (size_t i = 0; i < m; i++) {
+      double u = uu[i], u2 = u * u, u4 = u2 * u2, p = c[i] * (u4 * u4 * u);
+      s0 += p;
+      p *= u;
+      s1 += p;
+      p *= u;
+      s2 += p;
+      p *= u;
+      s3 += p;
+      p *= u;
+      s4 += p;
+      p *= u;
+      s5 += p;
+      p *= u;
+      s6 += p;
+      p *= u;
+      s7 += p;
+      p *= u;
+      s8 += p;
+      p *= u;
+      s9 += p;
+    }
+    A[9] += s0;
+    A[10] += s1;
+    A[11] += s2;
+    A[12] += s3;
+    A[13] += s4;
+    A[14] += s5;
+    A[15] += s6;
+    A[16] += s7;
+    A[17] += s8;
+    A[18] += s9;
+  }
+  ks->z = z;
+  ks->e = e;
+  ks->live = 1;
+}
+
+static void ks_extend(const tf_cpdata *d, tf_ksums *ks, size_t s, size_t e) {
+  for (size_t t = ks->e + 1; t <= e; t++) {
+    int cl = ks->cls == 6 ? 0 : ks->cls + 1;
+    ks_add(d, ks, s, t, cl);
+    ks->cls = cl;
+  }
+  ks->e = e;
+}
+
+/* e^z for |z| <= 0.02 by its Taylor polynomial of degree 7 (remainder
+ * below 7e-19 relative) */
+static inline double kl_expsmall(double z) {
+  return 1 +
+         z * (1 + z * 0.5 *
+                      (1 + z * (1.0 / 3) *
+                               (1 + z * 0.25 *
+                                        (1 + z * 0.2 *
+                                                 (1 + z * (1.0 / 6) *
+                                                          (1 + z * (1.0 / 7)))))));
+}
+
+/* One segment's evaluation context. */
+typedef struct kl_ctx {
+  const tf_cpdata *d;
+  size_t s, e;
+  double c, Y, S1, m, v, L;
+  double iphi, iv, irsd2;
+  tf_ksums *ks; /* NULL: the closed forms of tf_esums */
+  double a0, ea0; /* e^{a0}, exact, for e^a near a0 */
+} kl_ctx;
+
+/* E0, E1, E2 at b from the power sums; 0 when they do not apply (b too
+ * far from any reference the sums can hold, or no present day). */
+static inline int ks_sums(kl_ctx *x, double b, double *E) {
+  tf_ksums *ks = x->ks;
+  double dx = b - ks->bref, delta = fabs(dx) * x->L;
+  int n;
+  if (delta <= kl_band[TF_KS_TERMS]) {
+    /* the fewest terms: a branch-free binary search of the table */
+    int pos = 0;
+    pos += (kl_band[pos + 8] < delta) * 8;
+    pos += (kl_band[pos + 4] < delta) * 4;
+    pos += (kl_band[pos + 2] < delta) * 2;
+    pos += kl_band[pos + 1] < delta;
+    n = pos + 1;
+  } else {
+    if (!(fabs(b) * x->L <= KL_BREF_RANGE))
+      return 0;
+    ks_build(x->d, ks, x->s, x->e, b);
+    dx = 0;
+    n = 1;
+  }
+  /* E_j = sum_k c_k A_{j+k}, c_k = dx^k / k!, in two interleaved chains
+   * c_k = c_{k-2} dx^2 / (k (k-1)) for the even and the odd terms, each
+   * with its own three sums */
+  const double *A = ks->A;
+  double d2 = dx * dx, ce = 1, co = dx;
+  double e0 = A[0], e1 = A[1], e2 = A[2], e3 = A[3];
+  double o0 = 0, o1 = 0, o2 = 0, o3 = 0;
+  int k = 1;
+  for (; k + 1 < n; k += 2) {
+    o0 += co * A[k];
+    o1 += co * A[k + 1];
+    o2 += co * A[k + 2];
+    o3 += co * A[k + 3];
+    ce *= d2 * kl_inv2[k + 1];
+    co *= d2 * kl_inv2[k + 2];
+    e0 += ce * A[k + 1];
+    e1 += ce * A[k + 2];
+    e2 += ce * A[k + 3];
+    e3 += ce * A[k + 4];
+  }
+  if (k < n) {
+    o0 += co * A[k];
+    o1 += co * A[k + 1];
+    o2 += co * A[k + 2];
+    o3 += co * A[k + 3];
+  }
+  E[0] = e0 + o0;
+  E[1] = e1 + o1;
+  E[2] = e2 + o2;
+  E[3] = e3 + o3;
+  return E[0] > 0 && isfinite(E[2]);
+}
+
+static inline void kl_eval_at(kl_ctx *x, double a, double b, kl_eval *r) {
+  double E[4];
+  if (x->ks && ks_sums(x, b, E)) {
+    double za = a - x->a0, ea;
+    if (fabs(za) <= 0.02) {
+      ea = x->ea0 * kl_expsmall(za);
+    } else {
+      x->a0 = a;
+      x->ea0 = ea = exp(a);
+    }
+    /* P = e^a E0 / phi, P m1 = e^a E1 / phi, P m2 = e^a E2 / phi and
+     * P^2 V = P P m2 - (P m1)^2: no division */
+    double ep = ea * x->iphi;
+    double P = ep * E[0], P1 = ep * E[1], P2 = ep * E[2];
+    double zm = a - x->m, zb = b - x->d->rmean;
+    r->f = (a * x->Y + b * x->S1) * x->iphi - P - 0.5 * zm * zm * x->iv -
+           0.5 * zb * zb * x->irsd2;
+    if (isfinite(r->f) && isfinite(P2 * P)) {
+      double V = P * P2 - P1 * P1; /* P^2 V */
+      if (V < 0)
+        V = 0;
+      r->ga = x->Y * x->iphi - P - zm * x->iv;
+      r->gb = x->S1 * x->iphi - P1 - zb * x->irsd2;
+      r->haa = P + x->iv;
+      r->hab = P1;
+      r->hbb = P2 + x->irsd2;
+      /* haa hbb - hab^2 as a sum of positive terms (METHODS B4) */
+      r->p3 = ep * E[3];
+      r->det = V + P * x->irsd2 + P2 * x->iv + x->iv * x->irsd2;
+      return;
+    }
+  }
+  kl_evaluate(x->d, x->s, x->e, x->c, x->Y, x->S1, x->m, x->v, a, b, r);
+}
+
 double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
                          double v, kl_fit *fit) {
   double c = (double)s - 1;
@@ -99,8 +410,74 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
   double L = (double)(e - s + 1);
   double a = isfinite(fit->a) ? fit->a : m;
   double b = isfinite(fit->b) ? fit->b : d->rmean;
-  if (isfinite(fit->pa) && isfinite(fit->a) && isfinite(fit->b) &&
-      fabs(fit->a - fit->pa) < 1 && fabs(fit->b - fit->pb) < 0.1) {
+  if (!(fit->kv == v && fit->kphi == d->phi && fit->krsd == d->rsd)) {
+    /* the start's constants (the same for every end) */
+    fit->kv = v;
+    fit->kphi = d->phi;
+    fit->krsd = d->rsd;
+    fit->iv = 1 / v;
+    fit->iphi = 1 / d->phi;
+    fit->irsd2 = 1 / (d->rsd * d->rsd);
+  }
+  double iphi = fit->iphi;
+  kl_ctx x = {d, s, e, c, Y, S1, m, v, L, iphi, fit->iv, fit->irsd2, NULL,
+              fit->a0, fit->ea0};
+  if (!(x.ea0 > 0)) {
+    x.a0 = a;
+    x.ea0 = exp(a);
+  }
+  if (e - s < KL_KS_MAXLEN) {
+    tf_ksums *ks = &fit->ks;
+    if (ks->live && ks->e <= e && ks->e + 1 >= s)
+      ks_extend(d, ks, s, e);
+    else if (fabs(b) * L <= KL_BREF_RANGE)
+      ks_build(d, ks, s, e, b);
+    else
+      ks->live = 0;
+    if (ks->live)
+      x.ks = ks;
+  }
+  if (fit->next == e && e > s && isfinite(fit->a) && isfinite(fit->b)) {
+    /* warm start: one Newton step from the mode of [s, e-1] for the new
+     * day's term alone, with the Hessian kept from that fit (the gradient
+     * of the rest is zero there to the tolerance below) */
+    if (!tf_isnan(d->y[e])) {
+      /* e^{a + b L} from e^{a0} and the sums' e^{bref L}, by short
+       * series (relative error below 1e-8: enough for a starting
+       * point) */
+      double ex, za = a - x.a0, zb = x.ks ? (b - x.ks->bref) * L : 1;
+      if (fabs(za) <= 0.02 && fabs(zb) <= 0.7)
+        ex = x.ea0 * kl_expsmall(za) * x.ks->z *
+             (1 + zb * (1 + zb * 0.5 * (1 + zb * (1.0 / 3) * (1 + zb * 0.25 *
+             (1 + zb * 0.2 * (1 + zb * (1.0 / 6) * (1 + zb * (1.0 / 7) *
+             (1 + zb * 0.125 * (1 + zb * (1.0 / 9) * (1 + zb * 0.1))))))))));
+      else
+        ex = exp(a + b * L);
+      double h = d->wcls[x.ks ? x.ks->cls : tf_cls(d, e)] * ex * iphi;
+      double g = d->y[e] * iphi - h;
+      double haa = fit->haa + h, hab = fit->hab + h * L,
+             hbb = fit->hbb + h * L * L;
+      double idet = 1 / (haa * hbb - hab * hab);
+      double da = (hbb - hab * L) * g * idet, db = (haa * L - hab) * g * idet;
+      if (isfinite(fit->p3)) {
+        /* and the second-order part: the gradient that step leaves,
+         * -D3P[d, d] / 2 from the third derivatives of P = e^a E0 / phi
+         * (P, P m1, P m2, P m3, the day's terms included), taken out by
+         * the same Hessian */
+        double L2 = L * L, P0 = fit->haa - x.iv + h, P1 = hab,
+               P2 = hbb - x.irsd2, P3 = fit->p3 + h * L2 * L;
+        double ra = -0.5 * (P0 * da * da + 2 * P1 * da * db + P2 * db * db);
+        double rb = -0.5 * (P1 * da * da + 2 * P2 * da * db + P3 * db * db);
+        da += (hbb * ra - hab * rb) * idet;
+        db += (haa * rb - hab * ra) * idet;
+      }
+      if (fabs(da) < 1 && fabs(db) < 0.1) {
+        a += da;
+        b += db;
+      }
+    }
+  } else if (isfinite(fit->pa) && isfinite(fit->a) && isfinite(fit->b) &&
+             fabs(fit->a - fit->pa) < 1 && fabs(fit->b - fit->pb) < 0.1) {
     /* warm start: the modes of [s, e-2] and [s, e-1] extrapolated (not
      * after a large move) */
     a += fit->a - fit->pa;
@@ -109,20 +486,30 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
   fit->pa = fit->a;
   fit->pb = fit->b;
   kl_eval r, rn;
-  kl_evaluate(d, s, e, c, Y, S1, m, v, a, b, &r);
+  kl_eval_at(&x, a, b, &r);
   if (r.f == -INFINITY) {
     a = m;
     b = d->rmean;
-    kl_evaluate(d, s, e, c, Y, S1, m, v, a, b, &r);
+    kl_eval_at(&x, a, b, &r);
   }
   double f = r.f;
+  /* Newton from the warm start; should it fail or stall away from the
+   * mode (a prior level far from the data's, after counts of very
+   * different sizes), once more from the level of the data with the
+   * closed-form sums, and the better of the two kept */
+  int retry = 0, conv = 0;
+  double idet_r = NAN; /* 1 / r.det, once known for the final r */
+  kl_eval r1 = r;
+  double a1 = NAN, b1 = NAN, f1 = -INFINITY;
+newton:
   if (f == -INFINITY)
-    goto fallback;
+    goto failed;
   for (int it = 0; it < 100; it++) {
-    double da = (r.hbb * r.ga - r.hab * r.gb) / r.det;
-    double db = (r.haa * r.gb - r.hab * r.ga) / r.det;
+    double idet = 1 / r.det;
+    double da = (r.hbb * r.ga - r.hab * r.gb) * idet;
+    double db = (r.haa * r.gb - r.hab * r.ga) * idet;
     if (!isfinite(da) || !isfinite(db))
-      goto fallback;
+      goto failed;
     /* Newton decrement: f rises by about lambda2 / 2 to the mode */
     double lambda2 = r.ga * da + r.gb * db;
     if (lambda2 < 1e-6) {
@@ -132,6 +519,8 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
       f += 0.5 * lambda2;
       a += da;
       b += db;
+      conv = 1;
+      idet_r = idet;
       break;
     }
     /* a trust region: at most 5 in the log-level and 1 in the growth
@@ -144,21 +533,35 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
       t = 1 / fabs(db);
     int h = 0;
     for (;;) {
-      kl_evaluate(d, s, e, c, Y, S1, m, v, a + t * da, b + t * db, &rn);
+      kl_eval_at(&x, a + t * da, b + t * db, &rn);
       if (rn.f >= f - 1e-12 * fabs(f) || h >= 50)
         break;
       t *= 0.5;
       h++;
     }
     if (!(rn.f >= f - 1e-12 * fabs(f)))
-      break; /* no ascent left: at the mode to double precision */
+      break; /* no ascent left */
     a += t * da;
     b += t * db;
     r = rn;
     f = rn.f;
   }
-  {
-    double va = r.hbb / r.det, vb = r.haa / r.det, cab = -r.hab / r.det;
+  if (!conv && !retry) {
+    r1 = r;
+    a1 = a;
+    b1 = b;
+    f1 = f;
+    goto again;
+  }
+  if (!conv && f1 > f) {
+    r = r1;
+    a = a1;
+    b = b1;
+    f = f1;
+  }
+result: {
+    double idet = isnan(idet_r) ? 1 / r.det : idet_r;
+    double va = r.hbb * idet, vb = r.haa * idet, cab = -r.hab * idet;
     double xv = va + L * L * vb + 2 * L * cab;
     /* N(a) N(b) (2 pi)^-1 against the Laplace (2 pi)^+1: they cancel */
     double lp = f - 0.5 * log(v * d->rsd * d->rsd * r.det);
@@ -169,8 +572,42 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
       fit->bvar = vb;
       fit->xm = a + b * L;
       fit->xv = xv > 1e-30 ? xv : 1e-30;
+      fit->next = e + 1;
+      fit->haa = r.haa;
+      fit->hab = r.hab;
+      fit->hbb = r.hbb;
+      fit->p3 = r.p3;
+      fit->a0 = x.a0;
+      fit->ea0 = x.ea0;
       return lp;
     }
+    if (!retry)
+      goto again;
+  }
+failed:
+  if (retry) {
+    if (f1 == -INFINITY)
+      goto fallback;
+    r = r1; /* the stalled first pass, once */
+    a = a1;
+    b = b1;
+    f = f1;
+    f1 = -INFINITY;
+    goto result;
+  }
+again:
+  retry = 1;
+  idet_r = NAN;
+  {
+    double lE0;
+    tf_esums(d, s, e, c, d->rmean, &lE0, NULL, NULL);
+    b = d->rmean;
+    a = isfinite(lE0) ? log(Y + 0.5) - lE0 : m;
+    x.ks = NULL;
+    kl_eval_at(&x, a, b, &r);
+    f = r.f;
+    conv = 0;
+    goto newton;
   }
 fallback:
   /* no usable mode (counts and priors far apart beyond double range): the
@@ -179,6 +616,7 @@ fallback:
   fit->a = m;
   fit->b = d->rmean;
   fit->pa = fit->pb = NAN;
+  fit->next = 0;
   fit->bvar = d->rsd * d->rsd;
   fit->xm = m + d->rmean * L;
   fit->xv = v + L * L * d->rsd * d->rsd;
@@ -242,8 +680,11 @@ typedef struct kl_work {
   size_t *act;       /* active starts, increasing                */
   size_t *run;       /* days below the pruning bound, per start  */
   kl_fit *fit;       /* warm starts, per start                   */
-  double *ws, *wx, *wv; /* per active start: weights, x mean, var */
-  double *sv;        /* per active start: filtered weight        */
+  double *sv, *wx, *wv; /* per active start: log filtered weight, x mean, var */
+  double *qs, *qg;   /* per active start: e^{sv - max sv}, times the hazard */
+  double *hz, *hz0;  /* hazard g(L) / S(L-1), L = 0..n (later, first segment) */
+  double *tmp;       /* n, for the backward sums                 */
+  int direct;        /* the cache written in place (see tf_kinkl_run) */
 } kl_work;
 
 static void kl_work_free(kl_work *w) {
@@ -252,21 +693,40 @@ static void kl_work_free(kl_work *w) {
   free(w->act);
   free(w->run);
   free(w->fit);
-  free(w->ws);
+  free(w->sv);
   free(w->wx);
   free(w->wv);
-  free(w->sv);
+  free(w->qs);
+  free(w->qg);
+  free(w->hz);
+  free(w->hz0);
+  free(w->tmp);
 }
 
-/* The forward pass: messages, Fa, the e-major cache and stop[]. */
+/* The forward pass: messages, Fa, the e-major cache and stop[].
+ *
+ * For each end e the filtered weights sv(s) = Fa[s] + log P(s, e) + log
+ * S(L-1) are exponentiated once against their largest, e^{sv - max}; the
+ * new-segment weights Fa[s] + log P(s, e) + log g(L) are these times the
+ * hazard g(L)/S(L-1) (tabled), so the sum for Fa[e+1], the total for the
+ * pruning bound and the mixture weights of the message take one exp per
+ * candidate and one log per day.  Should the new-segment weights all
+ * underflow against the largest filtered weight, they are taken against
+ * their own largest instead (one more exp per candidate, rare). */
 static int kl_forward(twofold_changes *ch, kl_work *w, kl_entries *E) {
   const tf_cpdata *d = &ch->d;
   const tf_lenprior *lp = &ch->lp;
   size_t n = ch->n, na = 0;
-  double leps = ch->opt.prune > 0 ? log(ch->opt.prune) : -INFINITY;
+  double eps = ch->opt.prune > 0 ? ch->opt.prune : 0;
   for (size_t i = 0; i <= n; i++)
     ch->Fa[i] = -INFINITY;
   ch->Fa[0] = 0;
+  w->hz[0] = w->hz0[0] = 0;
+  for (size_t L = 1; L <= n; L++) {
+    w->hz[L] = lp->lS[L - 1] > -INFINITY ? exp(lp->lg[L] - lp->lS[L - 1]) : 0;
+    w->hz0[L] =
+        lp->lS0[L - 1] > -INFINITY ? exp(lp->lg0[L] - lp->lS0[L - 1]) : 0;
+  }
   /* knot 0: log lambda with lambda ~ Gamma(alpha, beta), as a normal */
   w->mm[0] = gsl_sf_psi(d->alpha) - log(d->beta);
   w->mv[0] = gsl_sf_psi_1(d->alpha);
@@ -274,60 +734,97 @@ static int kl_forward(twofold_changes *ch, kl_work *w, kl_entries *E) {
     if (ch->Fa[e] > -INFINITY) {
       w->act[na] = e;
       w->run[e] = 0;
-      w->fit[e].a = w->mm[e];
-      w->fit[e].b = d->rmean;
-      w->fit[e].pa = w->fit[e].pb = NAN;
+      w->fit[e] = (kl_fit){.a = w->mm[e], .b = d->rmean, .pa = NAN,
+                           .pb = NAN};
       na++;
     }
-    double tot = -INFINITY;
+    double ref = -INFINITY;
     for (size_t i = 0; i < na; i++) {
       size_t s = w->act[i], L = e - s + 1;
       kl_fit *f = &w->fit[s];
       double lps = tf_seg_kink(d, s, e, w->mm[s], w->mv[s], f);
-      int rc = kl_push(E, s, lps, f->b, f->bvar, ch->msg);
-      if (rc)
-        return rc;
-      ch->stop[s] = e;
-      double wk = -INFINITY;
-      if (e + 1 < n) {
-        wk = ch->Fa[s] + lps + tf_lg(lp, s, L);
-        ch->Fa[e + 1] = tf_lse(ch->Fa[e + 1], wk);
+      if (w->direct) {
+        size_t k = ch->off[s] + (e - s);
+        ch->clogP[k] = lps;
+        ch->cb[k] = f->b;
+        ch->cv[k] = f->bvar;
+      } else {
+        int rc = kl_push(E, s, lps, f->b, f->bvar, ch->msg);
+        if (rc)
+          return rc;
       }
-      w->ws[i] = wk;
+      ch->stop[s] = e;
       w->wx[i] = f->xm;
       w->wv[i] = f->xv;
       /* filtered weight of "the segment covering day e started at s" */
       double sv = ch->Fa[s] + lps + tf_lsurv(lp, s, L);
-      tot = tf_lse(tot, sv);
       w->sv[i] = sv;
+      if (sv > ref)
+        ref = sv;
+    }
+    if (ref == -INFINITY)
+      continue; /* nothing possible ends here: Fa[e+1] stays -inf */
+    double tot = 0, sumg = 0;
+    for (size_t i = 0; i < na; i++) {
+      size_t s = w->act[i], L = e - s + 1;
+      double q = w->sv[i] > -INFINITY ? exp(w->sv[i] - ref) : 0;
+      double g = q * (s == 0 ? w->hz0[L] : w->hz[L]);
+      w->qs[i] = q;
+      w->qg[i] = g;
+      tot += q;
+      sumg += g;
+    }
+    double F = -INFINITY;
+    if (e + 1 < n) {
+      if (sumg >= 1e-250) {
+        F = ref + log(sumg);
+      } else {
+        double rg = -INFINITY;
+        for (size_t i = 0; i < na; i++) {
+          size_t s = w->act[i], L = e - s + 1;
+          double l = w->sv[i] - tf_lsurv(lp, s, L) + tf_lg(lp, s, L);
+          w->qg[i] = l;
+          if (l > rg)
+            rg = l;
+        }
+        sumg = 0;
+        if (rg > -INFINITY) {
+          for (size_t i = 0; i < na; i++) {
+            double g = w->qg[i] > -INFINITY ? exp(w->qg[i] - rg) : 0;
+            w->qg[i] = g;
+            sumg += g;
+          }
+          F = rg + log(sumg);
+        }
+      }
+      ch->Fa[e + 1] = F;
     }
     /* the message at knot e+1: the mixture over s, collapsed */
-    if (e + 1 < n && ch->Fa[e + 1] > -INFINITY) {
-      double F = ch->Fa[e + 1], s0 = 0, s1 = 0, s2 = 0, ref = NAN;
+    if (e + 1 < n && F > -INFINITY) {
+      double s0 = 0, s1 = 0, s2 = 0, xref = NAN;
       for (size_t i = 0; i < na; i++) {
-        if (w->ws[i] == -INFINITY || !isfinite(w->wx[i]) ||
-            !isfinite(w->wv[i]))
+        double om = w->qg[i];
+        if (!(om > 0) || !isfinite(w->wx[i]) || !isfinite(w->wv[i]))
           continue;
-        double om = exp(w->ws[i] - F);
-        if (isnan(ref))
-          ref = w->wx[i];
-        double dx = w->wx[i] - ref;
+        if (isnan(xref))
+          xref = w->wx[i];
+        double dx = w->wx[i] - xref;
         s0 += om;
         s1 += om * dx;
         s2 += om * (w->wv[i] + dx * dx);
       }
       double mu = s1 / s0;
       double var = s2 / s0 - mu * mu;
-      w->mm[e + 1] = s0 > 0 ? ref + mu : w->mm[0];
+      w->mm[e + 1] = s0 > 0 ? xref + mu : w->mm[0];
       w->mv[e + 1] = s0 > 0 ? (var > 1e-30 ? var : 1e-30) : w->mv[0];
     }
     /* pruning */
-    if (e + 1 < n && leps > -INFINITY && tot > -INFINITY) {
+    if (e + 1 < n && eps > 0) {
+      double bound = eps * tot;
       size_t k = 0;
       for (size_t i = 0; i < na; i++) {
         size_t s = w->act[i], L = e - s + 1;
-        double sv = w->sv[i];
-        if (L >= (size_t)ch->opt.min_seg && sv < leps + tot) {
+        if (L >= (size_t)ch->opt.min_seg && w->qs[i] < bound) {
           if (++w->run[s] >= KL_PRUNE_RUN)
             continue; /* dropped */
         } else {
@@ -357,60 +854,105 @@ int tf_kinkl_run(twofold_changes *ch) {
   w.act = malloc(n * sizeof(size_t));
   w.run = malloc(n * sizeof(size_t));
   w.fit = malloc(n * sizeof(kl_fit));
-  w.ws = malloc(n * sizeof(double));
+  w.sv = malloc(n * sizeof(double));
   w.wx = malloc(n * sizeof(double));
   w.wv = malloc(n * sizeof(double));
-  w.sv = malloc(n * sizeof(double));
+  w.qs = malloc(n * sizeof(double));
+  w.qg = malloc(n * sizeof(double));
+  w.hz = malloc((n + 1) * sizeof(double));
+  w.hz0 = malloc((n + 1) * sizeof(double));
+  w.tmp = malloc(n * sizeof(double));
   size_t *cnt = NULL;
   if (!ch->Q || !ch->Fa || !ch->stop || !ch->off || !w.mm || !w.mv ||
-      !w.act || !w.run || !w.fit || !w.ws || !w.wx || !w.wv || !w.sv)
+      !w.act || !w.run || !w.fit || !w.sv || !w.wx || !w.wv || !w.qs ||
+      !w.qg || !w.hz || !w.hz0 || !w.tmp)
     goto out;
   for (size_t s = 0; s < n; s++)
     ch->stop[s] = SIZE_MAX; /* never started */
+  /* the segment cache in per-start order: start s holds e = s..stop[s].
+   * For series up to KL_DIRECT_DAYS the forward pass writes it in place,
+   * each start given room for every end (only the entries written are
+   * ever touched, so the memory used is that of the candidates); longer
+   * series collect e-major entries and reorder them after the pass. */
+  if (n <= KL_DIRECT_DAYS) {
+    size_t total = n * (n + 1) / 2;
+    ch->clogP = malloc(total * sizeof(double));
+    ch->cb = malloc(total * sizeof(double));
+    ch->cv = malloc(total * sizeof(double));
+    if (!ch->clogP || !ch->cb || !ch->cv)
+      goto out;
+    ch->ncache = ch->capcache = total;
+    for (size_t s = 0; s < n; s++)
+      ch->off[s] = s * n - (s * (s - 1)) / 2; /* sum of n - j, j < s */
+    w.direct = 1;
+  }
   rc = kl_forward(ch, &w, &E);
   if (rc)
     goto out;
-  /* per-start layout: start s holds e = s..stop[s]; a start that never
-   * became a candidate holds one impossible entry */
   rc = TWOFOLD_ENOMEM;
-  cnt = calloc(n, sizeof *cnt);
-  if (!cnt)
-    goto out;
-  size_t total = 0;
-  for (size_t s = 0; s < n; s++) {
-    if (ch->stop[s] == SIZE_MAX)
+  if (w.direct) {
+    /* a start that never became a candidate holds one impossible entry */
+    for (size_t s = 0; s < n; s++) {
+      if (ch->stop[s] != SIZE_MAX)
+        continue;
       ch->stop[s] = s;
-    ch->off[s] = total;
-    total += ch->stop[s] - s + 1;
+      ch->clogP[ch->off[s]] = -INFINITY;
+      ch->cb[ch->off[s]] = 0;
+      ch->cv[ch->off[s]] = 0;
+    }
+  } else {
+    cnt = calloc(n, sizeof *cnt);
+    if (!cnt)
+      goto out;
+    size_t total = 0;
+    for (size_t s = 0; s < n; s++) {
+      if (ch->stop[s] == SIZE_MAX)
+        ch->stop[s] = s;
+      ch->off[s] = total;
+      total += ch->stop[s] - s + 1;
+    }
+    ch->clogP = malloc(total * sizeof(double));
+    ch->cb = malloc(total * sizeof(double));
+    ch->cv = malloc(total * sizeof(double));
+    if (!ch->clogP || !ch->cb || !ch->cv)
+      goto out;
+    ch->ncache = ch->capcache = total;
+    for (size_t i = 0; i < total; i++) {
+      ch->clogP[i] = -INFINITY;
+      ch->cb[i] = 0;
+      ch->cv[i] = 0;
+    }
+    for (size_t i = 0; i < E.n; i++) {
+      size_t s = E.s[i], k = ch->off[s] + cnt[s]++;
+      ch->clogP[k] = E.lp[i];
+      ch->cb[k] = E.b[i];
+      ch->cv[k] = E.v[i];
+    }
   }
-  ch->clogP = malloc(total * sizeof(double));
-  ch->cb = malloc(total * sizeof(double));
-  ch->cv = malloc(total * sizeof(double));
-  if (!ch->clogP || !ch->cb || !ch->cv)
-    goto out;
-  ch->ncache = ch->capcache = total;
-  for (size_t i = 0; i < total; i++) {
-    ch->clogP[i] = -INFINITY;
-    ch->cb[i] = 0;
-    ch->cv[i] = 0;
-  }
-  for (size_t i = 0; i < E.n; i++) {
-    size_t s = E.s[i], k = ch->off[s] + cnt[s]++;
-    ch->clogP[k] = E.lp[i];
-    ch->cb[k] = E.b[i];
-    ch->cv[k] = E.v[i];
-  }
-  /* backward over the cache (METHODS A2) */
+  /* backward over the cache (METHODS A2): the terms against their
+   * largest, one exp each */
   ch->Q[n] = 0;
   for (size_t t = n; t-- > 0;) {
+    double mx = -INFINITY, *tm = w.tmp;
+    const double *cl = ch->clogP + ch->off[t];
+    size_t ne = ch->stop[t] - t + 1;
+    for (size_t j = 0; j < ne; j++) {
+      size_t e = t + j, L = j + 1;
+      double l = cl[j];
+      if (l > -INFINITY)
+        l += (e + 1 < n ? tf_lg(&ch->lp, t, L) : tf_lsurv(&ch->lp, t, L)) +
+             ch->Q[e + 1];
+      tm[j] = l;
+      if (l > mx)
+        mx = l;
+    }
     double acc = -INFINITY;
-    for (size_t e = t; e <= ch->stop[t]; e++) {
-      double l = ch->clogP[ch->off[t] + (e - t)];
-      if (l == -INFINITY)
-        continue;
-      size_t L = e - t + 1;
-      double pr = e + 1 < n ? tf_lg(&ch->lp, t, L) : tf_lsurv(&ch->lp, t, L);
-      acc = tf_lse(acc, l + pr + ch->Q[e + 1]);
+    if (mx > -INFINITY) {
+      double sum = 0;
+      for (size_t j = 0; j < ne; j++)
+        if (tm[j] > -INFINITY)
+          sum += exp(tm[j] - mx);
+      acc = mx + log(sum);
     }
     ch->Q[t] = acc;
   }
@@ -429,7 +971,7 @@ int tf_kinkl_run(twofold_changes *ch) {
   for (size_t j = 0; j <= ch->nmap; j++) {
     size_t s = ch->mapstart[j], e = ch->mapstart[j + 1] - 1;
     size_t mid = (s + e) / 2;
-    kl_fit f = {NAN, NAN, NAN, NAN, 0, 0, 0};
+    kl_fit f = {.a = NAN, .b = NAN, .pa = NAN, .pb = NAN};
     (void)tf_seg_kink(&ch->d, s, e, w.mm[s], w.mv[s], &f);
     ch->maplvl[j] = exp(f.a + f.b * ((double)mid - (double)s + 1));
   }

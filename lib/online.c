@@ -306,7 +306,7 @@ static int add_day(twofold_online *on, double y) {
       double beta = d->beta > 0 ? d->beta : d->alpha;
       on->cmm[0] = gsl_sf_psi(d->alpha) - log(beta);
       on->cmv[0] = gsl_sf_psi_1(d->alpha);
-      on->cf[0] = (tf_kfit){on->cmm[0], d->rmean, NAN, NAN, 0, 0, 0};
+      on->cf[0] = (tf_kfit){.a = on->cmm[0], .b = d->rmean, .pa = NAN, .pb = NAN};
     }
     if (on->cps)
       tf_psum_init(&on->cps[0], 0, d->rmean);
@@ -373,7 +373,7 @@ static int add_day(twofold_online *on, double y) {
   if (kink) {
     on->cmm[k] = isnan(nm) ? on->cmm[0] : nm;
     on->cmv[k] = isnan(nv) ? on->cmv[0] : nv;
-    on->cf[k] = (tf_kfit){on->cmm[k], d->rmean, NAN, NAN, 0, 0, 0};
+    on->cf[k] = (tf_kfit){.a = on->cmm[k], .b = d->rmean, .pa = NAN, .pb = NAN};
   }
   if (on->cps)
     tf_psum_init(&on->cps[k], t, d->rmean);
@@ -386,6 +386,17 @@ static int add_day(twofold_online *on, double y) {
   on->cv[k] = v;
   lsum_add(&zm, &zs, on->cw[k]);
   double lz = zm == -INFINITY ? -INFINITY : zm + log(zs);
+  if (lz == -INFINITY) {
+    /* the day is impossible under every candidate (counts beyond what
+     * the segment fits can hold): the filter starts again at this day,
+     * with the day's predictive 0 */
+    move_candidate(on, 0, k);
+    on->nc = 1;
+    on->cw[0] = 0;
+    on->lpred = -INFINITY;
+    on->t = t + 1;
+    return 0;
+  }
   for (size_t i = 0; i < on->nc; i++)
     on->cw[i] -= lz;
   on->lpred = lz + cst;
