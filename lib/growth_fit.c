@@ -395,37 +395,193 @@ typedef struct {
   int iter;
 } nbpar;
 
-/* Newton on (r, b) at fixed theta; r held fixed if fixr.  Returns
- * iterations or -1. */
-static int nb_beta(const win_t *w, nbpar *p, int fixr, int maxit, double tol) {
+/* psi(x) - log x and psi'(x) for x >= 10: the asymptotic series of
+ * tf_digamma and tf_trigamma (Abramowitz & Stegun 1964, 6.3.18 and
+ * 6.4.12, to the x^-14 and x^-15 terms; the next terms are below 1e-16
+ * at x = 10) without the shift. */
+static inline double psi_mlog(double x) {
+  double i = 1.0 / x, i2 = i * i;
+  double ser =
+      i2 * (1.0 / 12.0 -
+            i2 * (1.0 / 120.0 -
+                  i2 * (1.0 / 252.0 -
+                        i2 * (1.0 / 240.0 -
+                              i2 * (1.0 / 132.0 -
+                                    i2 * (691.0 / 32760.0 - i2 / 12.0))))));
+  return -0.5 * i - ser;
+}
+
+static inline double tri_ser(double x) {
+  double i = 1.0 / x, i2 = i * i;
+  return i * (1.0 +
+              i * (0.5 +
+                   i * (1.0 / 6.0 -
+                        i2 * (1.0 / 30.0 -
+                              i2 * (1.0 / 42.0 -
+                                    i2 * (1.0 / 30.0 -
+                                          i2 * (5.0 / 66.0 -
+                                                i2 * (691.0 / 2730.0 -
+                                                      i2 * 7.0 / 6.0))))))));
+}
+
+/* What one theta needs for the days' theta scores: psi(theta),
+ * psi'(theta) (if ds) and log theta - psi(theta). */
+typedef struct {
+  double th, ps0, ps1, cth;
+} nbth;
+
+static void nbth_init(nbth *c, double th, int ds) {
+  c->th = th;
+  c->ps0 = tf_digamma(th);
+  c->ps1 = ds ? tf_trigamma(th) : 0.0;
+  c->cth = th >= 10.0 ? -psi_mlog(th) : log(th) - c->ps0;
+}
+
+/* A day's term of the theta score dl/dtheta,
+ *     psi(theta + y) - psi(theta) - log(1 + m/theta) + (m - y)/(m + theta),
+ * and (ds not NULL) of its derivative in theta; id = 1/(theta + m).  For
+ * y > 6 and theta + y >= 10 below theta = 1e3 the psi difference and the
+ * logarithm share one log1p:
+ *     psi(theta + y) - psi(theta) - log(1 + m/theta)
+ *       = (log theta - psi(theta)) + log1p((y - m)/(theta + m))
+ *         + (psi(theta + y) - log(theta + y)),
+ * the first once per theta, the last from the series; elsewhere psidiff. */
+static inline double nb_sday(const nbth *c, double y, double m, double id,
+                             double *ds) {
+  double th = c->th;
+  if (y > 6.0 && th < 1e3 && th + y >= 10.0) {
+    double x = th + y;
+    if (ds)
+      *ds = tri_ser(x) - c->ps1 + m * id / th - (m - y) * id * id;
+    return c->cth + log1p((y - m) * id) + psi_mlog(x) + (m - y) * id;
+  }
+  double d1, d2 = 0.0;
+  psidiff(th, y, c->ps0, c->ps1, &d1, ds ? &d2 : NULL);
+  if (ds)
+    *ds = -d2 + m * id / th - (m - y) * id * id;
+  return d1 - log1p(m / th) + (m - y) * id;
+}
+
+/* The sums of one pass over the window at (beta, theta), as flags ask:
+ * NBK_BETA the score U of beta (G, gr) and its observed information (the
+ * arrow H, Hr, Hrr); NBK_C the mixed derivative d2l/dbeta dtau (C, Cr);
+ * NBK_I the expected information X'WX (I, Ir, Irr); NBK_S the score of
+ * theta S = dl/dtheta and NBK_DS its derivative DS; NBK_LL the
+ * log-likelihood without its theta-only and y-only terms.  mu[t] gets the
+ * mean of each present day t.  The days are taken class by class; without
+ * an offset the means of a class are made from one exponential by
+ * multiplying by e^{r step}, anew from exp every 8 days (relative error
+ * below 1e-15). */
+typedef struct {
+  double G[7], H[7], Hr[7], C[7], I[7], Ir[7];
+  double gr, Hrr, Cr, Irr, S, DS, ll;
+} nbsums;
+
+enum { NBK_BETA = 1, NBK_C = 2, NBK_I = 4, NBK_S = 8, NBK_DS = 16,
+       NBK_LL = 32 };
+
+static void nb_kernel(const win_t *w, const nbpar *p, unsigned f, double *mu,
+                      nbsums *z) {
   int nc = w->nc;
   double th = p->theta;
+  nbth c;
+  if (f & NBK_S)
+    nbth_init(&c, th, (f & NBK_DS) != 0);
+  memset(z, 0, sizeof *z);
+  ksum S = {0, 0}, D = {0, 0}, L = {0, 0};
+  size_t step = nc == 7 ? 7 : 1;
+  double e = w->off ? 0.0 : exp(p->r * (double)step);
+  double gr = 0.0, Hrr = 0.0, Cr = 0.0, Irr = 0.0;
+  for (int j = 0; j < nc; j++) {
+    size_t t0 = nc == 7 ? (size_t)((j - w->wd0 + 7) % 7) : 0;
+    double G = 0.0, H = 0.0, Hr = 0.0, C = 0.0, I = 0.0, Ir = 0.0;
+    double m = 0.0;
+    unsigned k = 0;
+    for (size_t t = t0; t < w->n; t += step, k++) {
+      double tt = (double)t;
+      if (w->off || (k & 7u) == 0)
+        m = exp(offv(w, t) + p->b[j] + p->r * tt);
+      else
+        m *= e;
+      double y = w->y[t];
+      if (tf_isnan(y))
+        continue;
+      mu[t] = m;
+      double den = th + m, id = 1.0 / den;
+      if (f & NBK_BETA) {
+        double s = th * (y - m) * id;
+        double h = th * m * (th + y) * id * id;
+        G += s;
+        gr += s * tt;
+        H += h;
+        Hr += h * tt;
+        Hrr += h * tt * tt;
+      }
+      if (f & NBK_C) {
+        double cc = th * m * (y - m) * id * id;
+        C += cc;
+        Cr += cc * tt;
+      }
+      if (f & NBK_I) {
+        double W = th * m * id;
+        I += W;
+        Ir += W * tt;
+        Irr += W * tt * tt;
+      }
+      if (f & NBK_S) {
+        double ds;
+        ks_add(&S, nb_sday(&c, y, m, id, (f & NBK_DS) ? &ds : NULL));
+        if (f & NBK_DS)
+          ks_add(&D, ds);
+      }
+      if (f & NBK_LL) {
+        double eta = offv(w, t) + p->b[j] + p->r * tt;
+        ks_add(&L, y * eta - (y + th) * log1p(m / th));
+      }
+    }
+    z->G[j] = G;
+    z->H[j] = H;
+    z->Hr[j] = Hr;
+    z->C[j] = C;
+    z->I[j] = I;
+    z->Ir[j] = Ir;
+  }
+  z->gr = gr;
+  z->Hrr = Hrr;
+  z->Cr = Cr;
+  z->Irr = Irr;
+  z->S = ks_val(&S);
+  z->DS = ks_val(&D);
+  z->ll = ks_val(&L);
+}
+
+/* The expected-information SE of r from the sums (NBK_I): the inverse
+ * root of the Schur complement of X'WX in r; NAN if not positive. */
+static double nb_se_sums(const nbsums *z, int nc) {
+  double sch = z->Irr;
+  for (int j = 0; j < nc; j++) {
+    if (!(z->I[j] > 0.0))
+      return NAN;
+    sch -= z->Ir[j] * z->Ir[j] / z->I[j];
+  }
+  return sch > 0.0 ? 1.0 / sqrt(sch) : NAN;
+}
+
+/* Newton on (r, b) at fixed theta; r held fixed if fixr.  Returns
+ * iterations or -1. */
+static int nb_beta(const win_t *w, nbpar *p, int fixr, int maxit, double tol,
+                   double *mu) {
+  int nc = w->nc;
   double lprev = -INFINITY;
   nbpar prev = *p;
   double step_r = 0.0, step_b[7] = {0};
   int halvings = 0;
   for (int it = 1; it <= maxit * 4; it++) {
-    double G[7] = {0}, H[7] = {0}, Hr[7] = {0}, gr = 0.0, Hrr = 0.0;
-    ksum l = {0, 0};
-    for (size_t t = 0; t < w->n; t++) {
-      double y = w->y[t];
-      if (tf_isnan(y))
-        continue;
-      int j = cls(w, t);
-      double tt = (double)t;
-      double eta = offv(w, t) + p->b[j] + p->r * tt;
-      double mu = exp(eta);
-      double den = th + mu;
-      double s = th * (y - mu) / den;
-      double h = th * mu * (th + y) / (den * den);
-      ks_add(&l, y * eta - (y + th) * log1p(mu / th));
-      G[j] += s;
-      H[j] += h;
-      Hr[j] += h * tt;
-      gr += s * tt;
-      Hrr += h * tt * tt;
-    }
-    double lv = ks_val(&l);
+    nbsums z;
+    nb_kernel(w, p, NBK_BETA | NBK_LL, mu, &z);
+    const double *G = z.G, *H = z.H, *Hr = z.Hr;
+    double gr = z.gr, Hrr = z.Hrr;
+    double lv = z.ll;
     if (!isfinite(lv))
       return -1;
     if (lv < lprev - 1e-12 * fabs(lprev) && halvings < 40) {
@@ -488,19 +644,16 @@ static double nb_theta(const win_t *w, nbpar *p, const double *mu,
   p->capped = 0;
   for (int it = 0; it < 60; it++) {
     double th = exp(tau);
-    double ps0 = tf_digamma(th), ps1 = tf_trigamma(th);
+    nbth c;
+    nbth_init(&c, th, 1);
     ksum S = {0, 0}, D = {0, 0};
-    size_t k = 0;
     for (size_t t = 0; t < w->n; t++) {
       double y = w->y[t];
       if (tf_isnan(y))
         continue;
-      double m = mu[k++];
-      double d1, d2;
-      psidiff(th, y, ps0, ps1, &d1, &d2);
-      ks_add(&S, d1 - log1p(m / th) + (m - y) / (m + th));
-      /* dS/dtheta */
-      ks_add(&D, -d2 + m / (th * (th + m)) - (m - y) / ((m + th) * (m + th)));
+      double m = mu[t], ds;
+      ks_add(&S, nb_sday(&c, y, m, 1.0 / (th + m), &ds));
+      ks_add(&D, ds); /* dS/dtheta */
     }
     double s = ks_val(&S), ds = ks_val(&D);
     double g = th * s;                 /* dl/dtau   */
@@ -547,23 +700,22 @@ static double nb_theta(const win_t *w, nbpar *p, const double *mu,
   return tau - tau0;
 }
 
-/* Fill mu for the present days (in order). */
+/* Fill mu[t] for the present days t. */
 static void nb_mu(const win_t *w, const nbpar *p, double *mu) {
-  size_t k = 0;
   for (size_t t = 0; t < w->n; t++) {
     if (tf_isnan(w->y[t]))
       continue;
-    mu[k++] = exp(offv(w, t) + p->b[cls(w, t)] + p->r * (double)t);
+    mu[t] = exp(offv(w, t) + p->b[cls(w, t)] + p->r * (double)t);
   }
 }
 
-/* Full NB2 fit by alternation.  mu is scratch of w->used doubles.  Returns
+/* Full NB2 fit by alternation.  mu is scratch of w->n doubles.  Returns
  * 0 or -1 (no convergence). */
 static int nb_fit(const win_t *w, nbpar *p, int fixr, int maxit, double tol,
                   double *mu) {
   int total = 0;
   for (int outer = 0; outer < 4 * maxit; outer++) {
-    int it = nb_beta(w, p, fixr, maxit, tol);
+    int it = nb_beta(w, p, fixr, maxit, tol, mu);
     if (it < 0)
       return -1;
     total += it;
@@ -602,49 +754,29 @@ static double nb_loglik(const win_t *w, const nbpar *p) {
 }
 
 /* Expected-information SE of r, and (pearson not NULL) Pearson X^2 and
- * deviance at p. */
+ * deviance at p; mu is scratch of w->n doubles. */
 static void nb_stats(const win_t *w, const nbpar *p, double *se,
-                     double *pearson, double *dev) {
-  int nc = w->nc;
+                     double *pearson, double *dev, double *mu) {
   double th = p->theta;
-  double I[7] = {0}, Ir[7] = {0};
+  nbsums z;
+  nb_kernel(w, p, NBK_I, mu, &z);
+  *se = nb_se_sums(&z, w->nc);
+  if (pearson == NULL)
+    return;
   ksum X2 = {0, 0}, D = {0, 0};
   for (size_t t = 0; t < w->n; t++) {
     double y = w->y[t];
     if (tf_isnan(y))
       continue;
-    int j = cls(w, t);
-    double mu = exp(offv(w, t) + p->b[j] + p->r * (double)t);
-    double W = th * mu / (th + mu);
-    I[j] += W;
-    Ir[j] += W * (double)t;
-    if (pearson == NULL)
-      continue;
-    double v = mu + mu * mu / th;
-    ks_add(&X2, (y - mu) * (y - mu) / v);
-    double dd = (y > 0.0 ? y * log(y / mu) : 0.0) -
-                (y + th) * log1p((y - mu) / (mu + th));
+    double m = mu[t];
+    double v = m + m * m / th;
+    ks_add(&X2, (y - m) * (y - m) / v);
+    double dd = (y > 0.0 ? y * log(y / m) : 0.0) -
+                (y + th) * log1p((y - m) / (m + th));
     ks_add(&D, 2.0 * dd);
   }
-  double tbar[7];
-  for (int j = 0; j < nc; j++)
-    tbar[j] = Ir[j] / I[j];
-  double sch = 0.0;
-  for (size_t t = 0; t < w->n; t++) {
-    double y = w->y[t];
-    if (tf_isnan(y))
-      continue;
-    int j = cls(w, t);
-    double mu = exp(offv(w, t) + p->b[j] + p->r * (double)t);
-    double W = th * mu / (th + mu);
-    double d = (double)t - tbar[j];
-    sch += W * d * d;
-  }
-  *se = 1.0 / sqrt(sch);
-  if (pearson) {
-    *pearson = ks_val(&X2);
-    *dev = ks_val(&D);
-  }
+  *pearson = ks_val(&X2);
+  *dev = ks_val(&D);
 }
 
 /* ------------------------------------------------------------------ */
@@ -675,18 +807,9 @@ static double prof_eval(prof_ctx *c, double r, double *d1) {
     return NAN;
   }
   /* score for r at the constrained optimum */
-  double th = c->nb.theta, g = 0.0;
-  size_t k = 0;
-  for (size_t t = 0; t < c->w->n; t++) {
-    double y = c->w->y[t];
-    if (tf_isnan(y))
-      continue;
-    double mu = c->mu[k++];
-    (void)mu;
-    double m = exp(offv(c->w, t) + c->nb.b[cls(c->w, t)] + r * (double)t);
-    g += th * (y - m) / (th + m) * (double)t;
-  }
-  *d1 = g;
+  nbsums z;
+  nb_kernel(c->w, &c->nb, NBK_BETA, c->mu, &z);
+  *d1 = z.gr;
   return nb_loglik(c->w, &c->nb);
 }
 
@@ -746,6 +869,60 @@ static double prof_root(prof_ctx *c, double rhat, double lhat, double target,
 /* Cox-Reid adjusted theta                                             */
 /* ------------------------------------------------------------------ */
 
+/* Solve the arrow system (H, Hr, Hrr) x = (v, vr): x = (xb, xr).  Returns
+ * -1 if it is not positive definite. */
+static int arrow_solve(const nbsums *z, int nc, const double *v, double vr,
+                       double *xb, double *xr) {
+  double sch = z->Hrr, rhs = vr;
+  for (int j = 0; j < nc; j++) {
+    if (!(z->H[j] > 0.0))
+      return -1;
+    sch -= z->Hr[j] * z->Hr[j] / z->H[j];
+    rhs -= z->Hr[j] * v[j] / z->H[j];
+  }
+  if (!(sch > 0.0))
+    return -1;
+  *xr = rhs / sch;
+  for (int j = 0; j < nc; j++)
+    xb[j] = (v[j] - z->Hr[j] * *xr) / z->H[j];
+  return 0;
+}
+
+/* The derivative of the Cox-Reid adjusted profile log-likelihood in tau
+ * (cr_grad) at a point where beta = beta_theta, from the sums of a pass
+ * there (NBK_BETA | NBK_C | NBK_I | NBK_S) and its means: theta S minus
+ * half d/dtau log det X'WX, dbeta/dtau = (cb, cr) = H^{-1} (C, Cr) (see
+ * cr_grad).  NAN if X'WX is not positive definite. */
+static double cr_score(const win_t *w, double th, const nbsums *z,
+                       const double *cb, double cr, const double *mu) {
+  int nc = w->nc;
+  double tbar[7], iI[7], schI = z->Irr;
+  for (int j = 0; j < nc; j++) {
+    if (!(z->I[j] > 0.0))
+      return NAN;
+    iI[j] = 1.0 / z->I[j];
+    tbar[j] = z->Ir[j] * iI[j];
+    schI -= z->Ir[j] * tbar[j];
+  }
+  if (!(schI > 0.0))
+    return NAN;
+  double isch = 1.0 / schI, dld = 0.0;
+  size_t step = nc == 7 ? 7 : 1;
+  for (int j = 0; j < nc; j++) {
+    size_t t0 = nc == 7 ? (size_t)((j - w->wd0 + 7) % 7) : 0;
+    for (size_t t = t0; t < w->n; t += step) {
+      if (tf_isnan(w->y[t]))
+        continue;
+      double tt = (double)t, m = mu[t];
+      double id = 1.0 / (th + m);
+      double dW = th * m * (m + th * (cb[j] + tt * cr)) * id * id;
+      double d = tt - tbar[j];
+      dld += dW * (iI[j] + d * d * isch);
+    }
+  }
+  return th * z->S - 0.5 * dld;
+}
+
 /* Derivative in tau = log theta of the Cox-Reid adjusted profile
  * log-likelihood (Cox & Reid 1987, JRSS B 49:1-39)
  *     l_CR(theta) = l(beta_theta, theta) - 1/2 log det(X'W X),
@@ -758,80 +935,23 @@ static double prof_root(prof_ctx *c, double rhat, double lhat, double target,
  * score; H the observed information of beta), the leverages
  * x_t'(X'WX)^{-1}x_t = 1/I_j + (t - tbar_j)^2 / S from the arrow-shaped
  * information (S its Schur complement in r).  p is updated to beta_theta;
- * mu is scratch of w->used doubles. */
+ * mu is scratch of w->n doubles. */
 static double cr_grad(const win_t *w, nbpar *p, double tau, int maxit,
                       double tol, int *fail, double *mu) {
   p->theta = exp(tau);
-  if (nb_beta(w, p, 0, maxit, tol) < 0) {
+  if (nb_beta(w, p, 0, maxit, tol, mu) < 0) {
     *fail = 1;
     return NAN;
   }
-  int nc = w->nc;
-  double th = p->theta;
-  double ps0 = tf_digamma(th), ps1 = tf_trigamma(th);
-  double I[7] = {0}, Ir[7] = {0}, Irr = 0.0;      /* expected (X'WX)  */
-  double H[7] = {0}, Hr[7] = {0}, Hrr = 0.0;      /* observed         */
-  double G[7] = {0}, Gr = 0.0;                    /* d2l/dbeta dtau   */
-  ksum S = {0, 0};
-  size_t k = 0;
-  for (size_t t = 0; t < w->n; t++) {
-    double y = w->y[t];
-    if (tf_isnan(y))
-      continue;
-    int j = cls(w, t);
-    double tt = (double)t;
-    double m = exp(offv(w, t) + p->b[j] + p->r * tt);
-    mu[k++] = m;
-    double den = th + m, i2 = 1.0 / (den * den);
-    double W = th * m / den;
-    double h = th * m * (th + y) * i2;
-    double gt = th * m * (y - m) * i2;
-    double d1, d2;
-    psidiff(th, y, ps0, ps1, &d1, NULL);
-    (void)d2;
-    ks_add(&S, d1 - log1p(m / th) + (m - y) / den);
-    I[j] += W;
-    Ir[j] += W * tt;
-    Irr += W * tt * tt;
-    H[j] += h;
-    Hr[j] += h * tt;
-    Hrr += h * tt * tt;
-    G[j] += gt;
-    Gr += gt * tt;
-  }
-  /* dbeta = H^{-1} G (arrow solve) and the Schur complement of X'WX */
-  double schH = Hrr, rhs = Gr, schI = Irr, tbar[7];
-  for (int j = 0; j < nc; j++) {
-    if (!(H[j] > 0.0) || !(I[j] > 0.0)) {
-      *fail = 1;
-      return NAN;
-    }
-    schH -= Hr[j] * Hr[j] / H[j];
-    rhs -= Hr[j] * G[j] / H[j];
-    tbar[j] = Ir[j] / I[j];
-    schI -= Ir[j] * tbar[j];
-  }
-  if (!(schH > 0.0) || !(schI > 0.0)) {
+  nbsums z;
+  nb_kernel(w, p, NBK_BETA | NBK_C | NBK_I | NBK_S, mu, &z);
+  double cb[7], cr;
+  double g = arrow_solve(&z, w->nc, z.C, z.Cr, cb, &cr) != 0
+                 ? NAN
+                 : cr_score(w, p->theta, &z, cb, cr, mu);
+  if (tf_isnan(g))
     *fail = 1;
-    return NAN;
-  }
-  double dr = rhs / schH, db[7];
-  for (int j = 0; j < nc; j++)
-    db[j] = (G[j] - Hr[j] * dr) / H[j];
-  double dld = 0.0;
-  k = 0;
-  for (size_t t = 0; t < w->n; t++) {
-    if (tf_isnan(w->y[t]))
-      continue;
-    int j = cls(w, t);
-    double tt = (double)t;
-    double m = mu[k++];
-    double den = th + m, i2 = 1.0 / (den * den);
-    double dW = th * m * (m + th * (db[j] + tt * dr)) * i2;
-    double d = tt - tbar[j];
-    dld += dW * (1.0 / I[j] + d * d / schI);
-  }
-  return th * ks_val(&S) - 0.5 * dld;
+  return g;
 }
 
 /* The Cox-Reid adjusted theta: the root of cr_grad below the ML value,
@@ -839,7 +959,7 @@ static double cr_grad(const win_t *w, nbpar *p, double tau, int maxit,
  * tried at guess +- 0.02), then refined by the Illinois variant of
  * false position.  p (in: the ML fit) gets beta at the adjusted theta;
  * *slope the slope of cr_grad between the last two points (the next
- * window's first guess of it); mu is scratch of w->used doubles. */
+ * window's first guess of it); mu is scratch of w->n doubles. */
 static double cr_theta(const win_t *w, nbpar *p, int maxit, double tol,
                        int *fail, double guess, double *mu, double *slope) {
   *slope = NAN;
@@ -932,75 +1052,6 @@ static double cr_theta(const win_t *w, nbpar *p, int maxit, double tol,
 /* Warm-started NB2 fits for rolling windows                           */
 /* ------------------------------------------------------------------ */
 
-/* The sums of one pass over the window at (beta, tau): the score U of
- * beta (G, gr), its observed information (the arrow H, Hr, Hrr), the
- * mixed derivative d2l/dbeta dtau (C, Cr), the expected information
- * X'WX (I, Ir, Irr), and the score of theta S = dl/dtheta with (need_ds)
- * its derivative DS. */
-typedef struct {
-  double G[7], H[7], Hr[7], C[7], I[7], Ir[7];
-  double gr, Hrr, Cr, Irr, S, DS;
-} nbsums;
-
-static void nb_pass(const win_t *w, const nbpar *p, int need_ds, double *mu,
-                    nbsums *z) {
-  double th = p->theta;
-  double ps0 = tf_digamma(th), ps1 = need_ds ? tf_trigamma(th) : 0.0;
-  memset(z, 0, sizeof *z);
-  ksum S = {0, 0}, D = {0, 0};
-  size_t k = 0;
-  for (size_t t = 0; t < w->n; t++) {
-    double y = w->y[t];
-    if (tf_isnan(y))
-      continue;
-    int j = cls(w, t);
-    double tt = (double)t;
-    double m = exp(offv(w, t) + p->b[j] + p->r * tt);
-    mu[k++] = m;
-    double den = th + m, id = 1.0 / den, i2 = id * id;
-    double s = th * (y - m) * id;
-    double h = th * m * (th + y) * i2;
-    double c = th * m * (y - m) * i2;
-    double W = th * m * id;
-    double d1, d2 = 0.0;
-    psidiff(th, y, ps0, ps1, &d1, need_ds ? &d2 : NULL);
-    ks_add(&S, d1 - log1p(m / th) + (m - y) * id);
-    if (need_ds)
-      ks_add(&D, -d2 + m / (th * den) - (m - y) * i2);
-    z->G[j] += s;
-    z->gr += s * tt;
-    z->H[j] += h;
-    z->Hr[j] += h * tt;
-    z->Hrr += h * tt * tt;
-    z->C[j] += c;
-    z->Cr += c * tt;
-    z->I[j] += W;
-    z->Ir[j] += W * tt;
-    z->Irr += W * tt * tt;
-  }
-  z->S = ks_val(&S);
-  z->DS = ks_val(&D);
-}
-
-/* Solve the arrow system (H, Hr, Hrr) x = (v, vr): x = (xb, xr).  Returns
- * -1 if it is not positive definite. */
-static int arrow_solve(const nbsums *z, int nc, const double *v, double vr,
-                       double *xb, double *xr) {
-  double sch = z->Hrr, rhs = vr;
-  for (int j = 0; j < nc; j++) {
-    if (!(z->H[j] > 0.0))
-      return -1;
-    sch -= z->Hr[j] * z->Hr[j] / z->H[j];
-    rhs -= z->Hr[j] * v[j] / z->H[j];
-  }
-  if (!(sch > 0.0))
-    return -1;
-  *xr = rhs / sch;
-  for (int j = 0; j < nc; j++)
-    xb[j] = (v[j] - z->Hr[j] * *xr) / z->H[j];
-  return 0;
-}
-
 /* Joint Newton on (r, b, tau = log theta) with the observed information
  * of all parameters (the beta block arrow-shaped, then the Schur
  * complement in tau), from a start near the maximum (the previous
@@ -1009,14 +1060,14 @@ static int arrow_solve(const nbsums *z, int nc, const double *v, double vr,
  * may be wild and theta must stay well below the cap; otherwise it
  * returns -1 and the caller alternates from the same start.  It stops
  * once the Newton decrement is below 1e-2 tol, after that last step.
- * mu is scratch of w->used doubles. */
+ * mu is scratch of w->n doubles. */
 static int nb_joint(const win_t *w, nbpar *p, double tol, double *mu) {
   int nc = w->nc;
   const double taumax = log(TF_THETA_CAP) - 2.0;
   double tau = log(p->theta);
   for (int it = 1; it <= 30; it++) {
     nbsums z;
-    nb_pass(w, p, 1, mu, &z);
+    nb_kernel(w, p, NBK_BETA | NBK_C | NBK_S | NBK_DS, mu, &z);
     double th = p->theta;
     double gt = th * z.S;                   /* dl/dtau    */
     double hh = th * z.S + th * th * z.DS;  /* d2l/dtau2  */
@@ -1093,7 +1144,7 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
   q.theta = exp(tau);
   for (int it = 0; it < 30; it++) {
     nbsums z;
-    nb_pass(w, &q, 0, mu, &z);
+    nb_kernel(w, &q, NBK_BETA | NBK_C | NBK_I | NBK_S, mu, &z);
     double th = q.theta;
     double ab[7], ar, cb[7], cr;
     if (arrow_solve(&z, nc, z.G, z.gr, ab, &ar) != 0 ||
@@ -1104,30 +1155,7 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
       lam2 += ab[j] * z.G[j];
     double dtau = 0.0;
     if (it > 0) {
-      /* cr_grad: theta S minus half d/dtau log det X'WX (see there) */
-      double tbar[7], schI = z.Irr;
-      for (int j = 0; j < nc; j++) {
-        if (!(z.I[j] > 0.0))
-          return NAN;
-        tbar[j] = z.Ir[j] / z.I[j];
-        schI -= z.Ir[j] * tbar[j];
-      }
-      if (!(schI > 0.0))
-        return NAN;
-      double dld = 0.0;
-      size_t k = 0;
-      for (size_t t = 0; t < w->n; t++) {
-        if (tf_isnan(w->y[t]))
-          continue;
-        int j = cls(w, t);
-        double tt = (double)t;
-        double m = mu[k++];
-        double den = th + m;
-        double dW = th * m * (m + th * (cb[j] + tt * cr)) / (den * den);
-        double d = tt - tbar[j];
-        dld += dW * (1.0 / z.I[j] + d * d / schI);
-      }
-      double g = th * z.S - 0.5 * dld;
+      double g = cr_score(w, th, &z, cb, cr, mu);
       if (!isfinite(g))
         return NAN;
       if (it > 1 && tau != tprev) {
@@ -1164,7 +1192,7 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
        * leave it to the bracketing search, as the single fit does */
       if (!(q.theta <= 1e4))
         return NAN;
-      nb_stats(w, &q, se, NULL, NULL);
+      nb_stats(w, &q, se, NULL, NULL, mu);
       if (!isfinite(*se))
         return NAN;
       *p = q;
@@ -1380,9 +1408,9 @@ static int nb_small(const win_t *w, const nbpar *ml, tf_quant *Q, double df,
     if (bad || !(th > 0.0))
       return -1;
     p.theta = th;
-    if (nb_beta(w, &p, 0, maxit, tol) < 0)
+    if (nb_beta(w, &p, 0, maxit, tol, mu) < 0)
       return -1;
-    nb_stats(w, &p, &se, NULL, NULL);
+    nb_stats(w, &p, &se, NULL, NULL, mu);
   }
   double q = tf_quant_t(Q, df);
   *lo = p.r - q * se;
@@ -1914,7 +1942,7 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
   /* NB2: start from the Poisson fit (or the warm start) */
   double z = Q->z;
   double c = Q->c;
-  double *mu = malloc(w.used * sizeof *mu);
+  double *mu = malloc(w.n * sizeof *mu);
   if (mu == NULL)
     return fail(res, TWOFOLD_ENOMEM, "out of memory%s%.0f", "", 0.0);
   nbpar np;
@@ -1938,11 +1966,10 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
     /* moment start, as MASS: theta0 = n / sum (y/mu - 1)^2 */
     nb_mu(&w, &np, mu);
     double s = 0.0;
-    size_t k = 0;
     for (size_t t = 0; t < n; t++) {
       if (tf_isnan(y[t]))
         continue;
-      double d = y[t] / mu[k++] - 1.0;
+      double d = y[t] / mu[t] - 1.0;
       s += d * d;
     }
     double th0 = (double)w.used / s;
@@ -1959,7 +1986,7 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
     nbpar np0 = np;
     if (warm->theta >= TF_THETA_CAP) {
       np.theta = TF_THETA_CAP;
-      int itb = nb_beta(&w, &np, 0, o->max_iter, o->tol);
+      int itb = nb_beta(&w, &np, 0, o->max_iter, o->tol, mu);
       if (itb >= 0) {
         double dec = INFINITY;
         nb_mu(&w, &np, mu);
@@ -1998,10 +2025,10 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
   if (np.capped)
     res->flags |= TWOFOLD_FIT_THETA_CAPPED;
   if (want & TF_WANT_LOGLIK) {
-    nb_stats(&w, &np, &res->se, &res->pearson, &res->dev);
+    nb_stats(&w, &np, &res->se, &res->pearson, &res->dev, mu);
     res->disp = res->pearson / res->df;
   } else if (want & (TF_WANT_WALD | TF_WANT_PROFILE)) {
-    nb_stats(&w, &np, &res->se, NULL, NULL);
+    nb_stats(&w, &np, &res->se, NULL, NULL, mu);
   } /* else (rolling, small-sample interval only): no use for the ML SE */
   int need_ll = (want & (TF_WANT_LOGLIK | TF_WANT_PROFILE)) != 0;
   double lhat = need_ll ? nb_loglik(&w, &np) : NAN;
