@@ -1018,7 +1018,7 @@ static double cr_theta(const win_t *w, nbpar *p, int maxit, double tol,
     double gc = cr_grad(w, &pc, c, maxit, tol, fail, mu);
     if (*fail)
       return NAN;
-    if (c != xl)
+    if (fabs(c - xl) > 1e-6)
       *slope = (gc - gl) / (c - xl);
     xl = c;
     gl = gc;
@@ -1134,11 +1134,12 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
                       double slope0, double tol, double *mu, double *se,
                       double *slope) {
   int nc = w->nc;
-  if (!(guess < tml))
-    return NAN;
   nbpar q = *p;
+  /* a guess more than 0.5 below the ML value: start there, the first
+   * pass a Newton step of beta alone; else start at the ML fit */
+  int far = isfinite(guess) && guess < tml - 0.5;
+  double tau = far ? guess : tml, tprev = NAN, gprev = NAN, egprev = 0.0;
   /* without a previous slope, -1 (about its size in short windows) */
-  double tau = guess, tprev = NAN, gprev = NAN;
   double sl = slope0 < 0.0 && isfinite(slope0) ? slope0 : -1.0;
   int own = 0; /* a secant slope of this window seen */
   q.theta = exp(tau);
@@ -1153,28 +1154,51 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
     double lam2 = ar * z.gr;
     for (int j = 0; j < nc; j++)
       lam2 += ab[j] * z.G[j];
-    double dtau = 0.0;
-    if (it > 0) {
-      double g = cr_score(w, th, &z, cb, cr, mu);
-      if (!isfinite(g))
-        return NAN;
-      if (it > 1 && tau != tprev) {
-        double s2 = (g - gprev) / (tau - tprev);
-        if (s2 < 0.0 && isfinite(s2)) {
-          sl = s2;
-          own = 1;
-        }
+    double g = it == 0 && far ? 0.0 : cr_score(w, th, &z, cb, cr, mu);
+    if (!isfinite(g))
+      return NAN;
+    /* to first order, the score at beta_theta: theta S moves by the
+     * mixed derivatives times the Newton step of beta; the log
+     * determinant moves too, so the size of that move bounds the error
+     * of g (eg) */
+    double corr = ar * z.Cr;
+    for (int j = 0; j < nc; j++)
+      corr += ab[j] * z.C[j];
+    g += corr;
+    double eg = fabs(corr);
+    double dtau;
+    if (it == 0 && far) {
+      dtau = 0.0;
+    } else if (it == 0) {
+      /* at the ML fit, beta = beta_theta: the adjusted score there */
+      if (g >= 0.0) {
+        /* at the cap (flat) or already stationary, as cr_theta */
+        *se = nb_se_sums(&z, nc);
+        if (!isfinite(*se))
+          return NAN;
+        *slope = NAN;
+        return q.theta;
       }
-      tprev = tau;
-      gprev = g;
+      dtau = isfinite(guess) && guess < tml ? guess - tml : -g / sl;
+    } else {
+      /* a secant slope only from differences well above the errors */
+      double s2 = (g - gprev) / (tau - tprev);
+      if (!tf_isnan(gprev) && s2 < 0.0 && isfinite(s2) &&
+          fabs(g - gprev) > 100.0 * (eg + egprev)) {
+        sl = s2;
+        own = 1;
+      }
       dtau = -g / sl;
-      if (tf_isnan(dtau))
-        return NAN;
-      if (dtau > 0.5) /* the guess was far: a damped step */
-        dtau = 0.5;
-      else if (dtau < -0.5)
-        dtau = -0.5;
     }
+    tprev = tau;
+    gprev = it == 0 && far ? NAN : g;
+    egprev = eg;
+    if (tf_isnan(dtau))
+      return NAN;
+    if (dtau > 0.5) /* the guess was far: a damped step */
+      dtau = 0.5;
+    else if (dtau < -0.5)
+      dtau = -0.5;
     double dr = ar + cr * dtau;
     if (!(fabs(dr) * (double)w->n <= 2.0))
       return NAN;
@@ -1185,13 +1209,14 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
     if (!(tau < tml && tau > tml - 20.0))
       return NAN;
     q.theta = exp(tau);
+    /* in the flat tail of large theta the root is ill-determined: leave
+     * it to the bracketing search, as the single fit does */
+    if (!(q.theta <= 1e4))
+      return NAN;
     if (fabs(dtau) == 0.5)
       own = 0; /* a damped step: no convergence yet */
-    if (own && lam2 < tol && fabs(dtau) < 1e-8) {
-      /* in the flat tail of large theta the root is ill-determined:
-       * leave it to the bracketing search, as the single fit does */
-      if (!(q.theta <= 1e4))
-        return NAN;
+    if (own && lam2 < tol && fabs(dtau) < 1e-8 &&
+        eg < 1e-9 * fabs(sl)) {
       nb_stats(w, &q, se, NULL, NULL, mu);
       if (!isfinite(*se))
         return NAN;
