@@ -395,6 +395,23 @@ typedef struct {
   int iter;
 } nbpar;
 
+/* The per-day kernel is inlined into each caller, so that the flags
+ * (constants there) select its terms at compile time. */
+#if defined(__GNUC__)
+#define NB_INLINE static inline __attribute__((always_inline))
+#else
+#define NB_INLINE static inline
+#endif
+
+/* Knuth's TwoSum (Knuth 1969, TAOCP vol. 2, 4.2.2): the same compensated
+ * sum as ks_add, without branches. */
+NB_INLINE void ks_add2(ksum *k, double v) {
+  double t = k->s + v;
+  double bp = t - k->s;
+  k->c += (k->s - (t - bp)) + (v - bp);
+  k->s = t;
+}
+
 /* psi(x) - log x and psi'(x) for x >= 10: the asymptotic series of
  * tf_digamma and tf_trigamma (Abramowitz & Stegun 1964, 6.3.18 and
  * 6.4.12, to the x^-14 and x^-15 terms; the next terms are below 1e-16
@@ -440,20 +457,22 @@ static void nbth_init(nbth *c, double th, int ds) {
 /* A day's term of the theta score dl/dtheta,
  *     psi(theta + y) - psi(theta) - log(1 + m/theta) + (m - y)/(m + theta),
  * and (ds not NULL) of its derivative in theta; id = 1/(theta + m).  For
- * y > 6 and theta + y >= 10 below theta = 1e3 the psi difference and the
- * logarithm share one log1p:
+ * theta + y >= 10 below theta = 1e3 the psi difference and the logarithm
+ * share one logarithm:
  *     psi(theta + y) - psi(theta) - log(1 + m/theta)
- *       = (log theta - psi(theta)) + log1p((y - m)/(theta + m))
+ *       = (log theta - psi(theta)) + log((theta + y)/(theta + m))
  *         + (psi(theta + y) - log(theta + y)),
  * the first once per theta, the last from the series; elsewhere psidiff. */
-static inline double nb_sday(const nbth *c, double y, double m, double id,
-                             double *ds) {
+NB_INLINE double nb_sday(const nbth *c, double y, double m, double id,
+                         double *ds) {
   double th = c->th;
-  if (y > 6.0 && th < 1e3 && th + y >= 10.0) {
+  if (th < 1e3 && th + y >= 10.0) {
     double x = th + y;
     if (ds)
       *ds = tri_ser(x) - c->ps1 + m * id / th - (m - y) * id * id;
-    return c->cth + log1p((y - m) * id) + psi_mlog(x) + (m - y) * id;
+    /* log of the ratio (theta + y)/(theta + m): its absolute error, about
+     * 1e-16, is what log1p would leave in the sum */
+    return c->cth + log(x * id) + psi_mlog(x) + (m - y) * id;
   }
   double d1, d2 = 0.0;
   psidiff(th, y, c->ps0, c->ps1, &d1, ds ? &d2 : NULL);
@@ -480,8 +499,8 @@ typedef struct {
 enum { NBK_BETA = 1, NBK_C = 2, NBK_I = 4, NBK_S = 8, NBK_DS = 16,
        NBK_LL = 32 };
 
-static void nb_kernel(const win_t *w, const nbpar *p, unsigned f, double *mu,
-                      nbsums *z) {
+NB_INLINE void nb_kernel(const win_t *w, const nbpar *p, unsigned f,
+                         double *mu, nbsums *z) {
   int nc = w->nc;
   double th = p->theta;
   nbth c;
@@ -492,6 +511,11 @@ static void nb_kernel(const win_t *w, const nbpar *p, unsigned f, double *mu,
   size_t step = nc == 7 ? 7 : 1;
   double e = w->off ? 0.0 : exp(p->r * (double)step);
   double gr = 0.0, Hrr = 0.0, Cr = 0.0, Irr = 0.0;
+  /* the theta score is summed with compensation from theta = 1e3 on,
+   * where its terms cancel to O(1/theta^2); below, its few terms of
+   * order one lose nothing that matters to plain sums */
+  int comp = th >= 1e3;
+  double Sp = 0.0, Dp = 0.0;
   for (int j = 0; j < nc; j++) {
     size_t t0 = nc == 7 ? (size_t)((j - w->wd0 + 7) % 7) : 0;
     double G = 0.0, H = 0.0, Hr = 0.0, C = 0.0, I = 0.0, Ir = 0.0;
@@ -529,14 +553,20 @@ static void nb_kernel(const win_t *w, const nbpar *p, unsigned f, double *mu,
         Irr += W * tt * tt;
       }
       if (f & NBK_S) {
-        double ds;
-        ks_add(&S, nb_sday(&c, y, m, id, (f & NBK_DS) ? &ds : NULL));
-        if (f & NBK_DS)
-          ks_add(&D, ds);
+        double ds = 0.0;
+        double sd = nb_sday(&c, y, m, id, (f & NBK_DS) ? &ds : NULL);
+        if (comp) {
+          ks_add2(&S, sd);
+          if (f & NBK_DS)
+            ks_add2(&D, ds);
+        } else {
+          Sp += sd;
+          Dp += ds;
+        }
       }
       if (f & NBK_LL) {
         double eta = offv(w, t) + p->b[j] + p->r * tt;
-        ks_add(&L, y * eta - (y + th) * log1p(m / th));
+        ks_add2(&L, y * eta - (y + th) * log1p(m / th));
       }
     }
     z->G[j] = G;
@@ -550,8 +580,8 @@ static void nb_kernel(const win_t *w, const nbpar *p, unsigned f, double *mu,
   z->Hrr = Hrr;
   z->Cr = Cr;
   z->Irr = Irr;
-  z->S = ks_val(&S);
-  z->DS = ks_val(&D);
+  z->S = comp ? ks_val(&S) : Sp;
+  z->DS = comp ? ks_val(&D) : Dp;
   z->ll = ks_val(&L);
 }
 
@@ -576,15 +606,23 @@ static int nb_beta(const win_t *w, nbpar *p, int fixr, int maxit, double tol,
   nbpar prev = *p;
   double step_r = 0.0, step_b[7] = {0};
   int halvings = 0;
+  double lam2prev = INFINITY;
   for (int it = 1; it <= maxit * 4; it++) {
+    /* the log-likelihood guards the steps; once the Newton decrement
+     * has fallen below 1e-2 (steps of a tenth of a standard error) the
+     * steps are not checked, and no log1p per day is spent on it */
+    int need_ll = halvings > 0 || !(lam2prev < 1e-2);
     nbsums z;
-    nb_kernel(w, p, NBK_BETA | NBK_LL, mu, &z);
+    if (need_ll)
+      nb_kernel(w, p, NBK_BETA | NBK_LL, mu, &z);
+    else
+      nb_kernel(w, p, NBK_BETA, mu, &z);
     const double *G = z.G, *H = z.H, *Hr = z.Hr;
     double gr = z.gr, Hrr = z.Hrr;
-    double lv = z.ll;
-    if (!isfinite(lv))
+    double lv = need_ll ? z.ll : -INFINITY;
+    if (need_ll ? !isfinite(lv) : !isfinite(gr))
       return -1;
-    if (lv < lprev - 1e-12 * fabs(lprev) && halvings < 40) {
+    if (need_ll && lv < lprev - 1e-12 * fabs(lprev) && halvings < 40) {
       /* backtrack from the previous point */
       halvings++;
       double f = ldexp(1.0, -halvings);
@@ -616,6 +654,7 @@ static int nb_beta(const win_t *w, nbpar *p, int fixr, int maxit, double tol,
     }
     prev = *p;
     lprev = lv;
+    lam2prev = lam2;
     /* limit wild steps on the log scale */
     double mx = fabs(dr) * (double)w->n;
     for (int j = 0; j < nc; j++)
@@ -1139,6 +1178,7 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
    * pass a Newton step of beta alone; else start at the ML fit */
   int far = isfinite(guess) && guess < tml - 0.5;
   double tau = far ? guess : tml, tprev = NAN, gprev = NAN, egprev = 0.0;
+  double dtprev = INFINITY;
   /* without a previous slope, -1 (about its size in short windows) */
   double sl = slope0 < 0.0 && isfinite(slope0) ? slope0 : -1.0;
   int own = 0; /* a secant slope of this window seen */
@@ -1154,7 +1194,7 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
     double lam2 = ar * z.gr;
     for (int j = 0; j < nc; j++)
       lam2 += ab[j] * z.G[j];
-    double g = it == 0 && far ? 0.0 : cr_score(w, th, &z, cb, cr, mu);
+    double g = cr_score(w, th, &z, cb, cr, mu);
     if (!isfinite(g))
       return NAN;
     /* to first order, the score at beta_theta: theta S moves by the
@@ -1168,7 +1208,7 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
     double eg = fabs(corr);
     double dtau;
     if (it == 0 && far) {
-      dtau = 0.0;
+      dtau = -g / sl;
     } else if (it == 0) {
       /* at the ML fit, beta = beta_theta: the adjusted score there */
       if (g >= 0.0) {
@@ -1191,7 +1231,7 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
       dtau = -g / sl;
     }
     tprev = tau;
-    gprev = it == 0 && far ? NAN : g;
+    gprev = g;
     egprev = eg;
     if (tf_isnan(dtau))
       return NAN;
@@ -1215,8 +1255,16 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
       return NAN;
     if (fabs(dtau) == 0.5)
       own = 0; /* a damped step: no convergence yet */
-    if (own && lam2 < tol && fabs(dtau) < 1e-8 &&
-        eg < 1e-9 * fabs(sl)) {
+    /* converged: beta's step below tol, the score's error small, and
+     * the tau step below 1e-8 or, with the steps shrinking
+     * superlinearly (the slope from points less than 1e-3 apart), the
+     * error left after it (about dtau times the ratio of the last two
+     * steps) below 1e-11 */
+    double left = fabs(dtprev) < 1e-3 ? fabs(dtau) * fabs(dtau / dtprev)
+                                       : INFINITY;
+    dtprev = dtau;
+    if (own && lam2 < tol && eg < 1e-9 * fabs(sl) &&
+        (fabs(dtau) < 1e-8 || (left < 1e-11 && fabs(dtau) < 1e-5))) {
       nb_stats(w, &q, se, NULL, NULL, mu);
       if (!isfinite(*se))
         return NAN;
@@ -2009,7 +2057,9 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
   int done = 0;
   if (wuse && isfinite(warm->theta) && warm->theta > 0.0) {
     nbpar np0 = np;
-    if (warm->theta >= TF_THETA_CAP) {
+    if (warm->theta < TF_THETA_CAP) {
+      done = nb_joint(&w, &np, o->tol, mu) == 0;
+    } else {
       np.theta = TF_THETA_CAP;
       int itb = nb_beta(&w, &np, 0, o->max_iter, o->tol, mu);
       if (itb >= 0) {
@@ -2019,8 +2069,6 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
         done = np.capped && dt == 0.0;
         np.iter = itb + 1;
       }
-    } else {
-      done = nb_joint(&w, &np, o->tol, mu) == 0;
     }
     if (!done)
       np = np0;
