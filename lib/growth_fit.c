@@ -1091,6 +1091,43 @@ static double cr_theta(const win_t *w, nbpar *p, int maxit, double tol,
 /* Warm-started NB2 fits for rolling windows                           */
 /* ------------------------------------------------------------------ */
 
+/* Up to k Newton steps on beta at fixed theta from a warm start, without
+ * the log-likelihood or the theta score (no logarithm per day), until the
+ * Newton decrement is below 1e-4: a rolling window differs from the
+ * previous one in two days, whose weekday levels move the most, and
+ * these cheap passes bring beta to the new days before the joint Newton
+ * (whose passes cost a logarithm and a psi series per day).  Returns -1
+ * on a matrix that is not positive definite (beta unchanged then). */
+static int nb_beta_pre(const win_t *w, nbpar *p, int k, double *mu) {
+  int nc = w->nc;
+  nbpar p0 = *p;
+  for (int it = 0; it < k; it++) {
+    nbsums z;
+    nb_kernel(w, p, NBK_BETA, mu, &z);
+    double ab[7], ar;
+    if (arrow_solve(&z, nc, z.G, z.gr, ab, &ar) != 0 || !isfinite(ar)) {
+      *p = p0;
+      return -1;
+    }
+    double lam2 = ar * z.gr, mx = fabs(ar) * (double)w->n;
+    for (int j = 0; j < nc; j++) {
+      lam2 += ab[j] * z.G[j];
+      if (fabs(ab[j]) > mx)
+        mx = fabs(ab[j]);
+    }
+    if (!isfinite(lam2) || mx > 5.0) {
+      *p = p0;
+      return -1;
+    }
+    p->r += ar;
+    for (int j = 0; j < nc; j++)
+      p->b[j] += ab[j];
+    if (lam2 < 1e-4)
+      break;
+  }
+  return 0;
+}
+
 /* Joint Newton on (r, b, tau = log theta) with the observed information
  * of all parameters (the beta block arrow-shaped, then the Schur
  * complement in tau), from a start near the maximum (the previous
@@ -2058,9 +2095,11 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
   if (wuse && isfinite(warm->theta) && warm->theta > 0.0) {
     nbpar np0 = np;
     if (warm->theta < TF_THETA_CAP) {
+      (void)nb_beta_pre(&w, &np, 3, mu);
       done = nb_joint(&w, &np, o->tol, mu) == 0;
     } else {
       np.theta = TF_THETA_CAP;
+      (void)nb_beta_pre(&w, &np, 3, mu);
       int itb = nb_beta(&w, &np, 0, o->max_iter, o->tol, mu);
       if (itb >= 0) {
         double dec = INFINITY;
@@ -2068,6 +2107,12 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
         double dt = nb_theta(&w, &np, mu, &dec);
         done = np.capped && dt == 0.0;
         np.iter = itb + 1;
+        if (!done && !np.capped && isfinite(dt)) {
+          /* theta leaves the cap: the joint Newton from beta at the cap
+           * and theta after the Newton steps of nb_theta */
+          done = nb_joint(&w, &np, o->tol, mu) == 0;
+          np.iter += itb + 1;
+        }
       }
     }
     if (!done)
