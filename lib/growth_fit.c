@@ -1141,6 +1141,7 @@ static int nb_joint(const win_t *w, nbpar *p, double tol, double *mu) {
   int nc = w->nc;
   const double taumax = log(TF_THETA_CAP) - 2.0;
   double tau = log(p->theta);
+  double lam2prev = INFINITY, fprev = 0.0;
   for (int it = 1; it <= 30; it++) {
     nbsums z;
     nb_kernel(w, p, NBK_BETA | NBK_C | NBK_S | NBK_DS, mu, &z);
@@ -1183,7 +1184,16 @@ static int nb_joint(const win_t *w, nbpar *p, double tol, double *mu) {
     if (!(tau < taumax && tau > -25.0))
       return -1;
     p->theta = exp(tau);
-    if (lam2 < 1e-2 * tol && f == 1.0) {
+    /* done: a decrement below 1e-2 tol, or, in the quadratic regime
+     * (two undamped steps), a predicted next decrement
+     * lam2^3 / lam2prev^2 below 1e-11 tol (the prediction is rough: the
+     * decrements seen after such a step are up to 1e3 times larger, and
+     * still far below 1e-2 tol) */
+    int quad = f == 1.0 && fprev == 1.0 && lam2 < 1e-6 &&
+               lam2 * lam2 * lam2 < 1e-11 * tol * lam2prev * lam2prev;
+    lam2prev = lam2;
+    fprev = f;
+    if ((lam2 < 1e-2 * tol && f == 1.0) || quad) {
       p->capped = 0;
       p->iter = it;
       return 0;
