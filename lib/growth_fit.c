@@ -1271,7 +1271,7 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
       /* a secant slope only from differences well above the errors */
       double s2 = (g - gprev) / (tau - tprev);
       if (!tf_isnan(gprev) && s2 < 0.0 && isfinite(s2) &&
-          fabs(g - gprev) > 100.0 * (eg + egprev)) {
+          fabs(g - gprev) > 10.0 * (eg + egprev)) {
         sl = s2;
         own = 1;
       }
@@ -2105,8 +2105,10 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
   if (wuse && isfinite(warm->theta) && warm->theta > 0.0) {
     nbpar np0 = np;
     if (warm->theta < TF_THETA_CAP) {
+      /* a joint fit in the flat tail (theta above 1e5) is left to the
+       * alternation, as the single fit's */
       (void)nb_beta_pre(&w, &np, 3, mu);
-      done = nb_joint(&w, &np, o->tol, mu) == 0;
+      done = nb_joint(&w, &np, o->tol, mu) == 0 && np.theta <= 1e5;
     } else {
       np.theta = TF_THETA_CAP;
       (void)nb_beta_pre(&w, &np, 3, mu);
@@ -2119,8 +2121,10 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
         np.iter = itb + 1;
         if (!done && !np.capped && isfinite(dt)) {
           /* theta leaves the cap: the joint Newton from beta at the cap
-           * and theta after the Newton steps of nb_theta */
-          done = nb_joint(&w, &np, o->tol, mu) == 0;
+           * and theta after the Newton steps of nb_theta, unless it ends
+           * in the flat tail (theta above 1e5), where the alternation
+           * settles whether the fit goes back to the cap */
+          done = nb_joint(&w, &np, o->tol, mu) == 0 && np.theta <= 1e5;
           np.iter += itb + 1;
         }
       }
