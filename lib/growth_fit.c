@@ -43,11 +43,20 @@
  * alternation's result is then polished, and a window started from the
  * previous day's estimate (rolling fits) is fitted, by Newton's method
  * on all parameters jointly (nb_joint), which falls back to the
- * alternation whenever it cannot proceed safely.  The
+ * alternation whenever it cannot proceed safely (or, rolling, ends in
+ * the flat tail above theta 1e5).  A rolling window first takes up to
+ * three Newton steps on beta alone at the previous theta (nb_beta_pre:
+ * passes without a logarithm per day), which move the levels of the
+ * days that changed.  The
  * standard error of r uses the expected information (X'WX)^{-1},
  * W = mu / (1 + mu/theta), at the estimates, as glm.nb and statsmodels'
  * GLM do (beta and theta are orthogonal in expectation: Lawless 1987,
  * Can J Stat 15:209-225).
+ *
+ * Every NB2 pass over the window's days is one kernel (nb_kernel), whose
+ * flags pick the sums a caller needs; it forms a class's means from one
+ * exponential and the theta score of a day from one logarithm (the
+ * psi(x) - log x series for x >= 10; A&S 6.3.18).
  */
 #include "growth_internal.h"
 
@@ -1206,16 +1215,27 @@ static int nb_joint(const win_t *w, nbpar *p, double tol, double *mu) {
  * log and of the slope of cr_grad in tau (the previous window's), by
  * passes that each take the Newton step of beta at the current tau and
  * the secant step of tau on the adjusted score, beta moved along with
- * dbeta/dtau; the first pass only brings beta to the guessed tau.  The
- * fixed point is the root of cr_grad with beta = beta_theta.  Stops once
- * the beta step is below tol (Newton decrement) and the tau step below
- * 1e-8 with a secant slope of this window (in the flat tail of large
- * theta the adjusted score tends to 0, and a step from the previous
- * window's slope alone can look converged), after those steps; then the
- * expected-information SE of r at the result goes to *se.  p (in: the ML fit, log theta tml) gets beta at
- * the adjusted theta; *slope the last secant slope.  Returns the adjusted
- * theta, or NAN when it does not converge in 30 passes, a step is wild,
- * or tau leaves (tml - 20, tml): the caller then uses cr_theta. */
+ * dbeta/dtau.  The first pass is at the ML fit (log theta tml), where
+ * beta = beta_theta: a non-negative adjusted score there gives the ML
+ * theta itself, as cr_theta does; else the step goes to the guess (or
+ * by the slope).  A guess more than 0.5 below tml (the ML theta at its
+ * cap, the adjusted one far below) is started at instead, with the ML
+ * beta.  The score is moved to first order by the beta step not yet
+ * taken (the mixed derivatives), and the size of that move bounds its
+ * error: a secant slope is taken only from scores that differ by more
+ * than 10 times their bounds.  The fixed point is the root of cr_grad
+ * with beta = beta_theta.  Stops, after those steps, once the beta step
+ * is below tol (Newton decrement), the score's bound below 1e-9 times
+ * the slope and the tau step below 1e-8 (or below 1e-5 with the error
+ * it leaves, by the ratio of the last two steps, below 1e-11), all with
+ * a secant slope of this window (in the flat tail of large theta the
+ * adjusted score tends to 0, and a step from the previous window's slope
+ * alone can look converged); then the expected-information SE of r at
+ * the result goes to *se.  p (in: the ML fit) gets beta at the adjusted
+ * theta; *slope the last secant slope.  Returns the adjusted theta, or
+ * NAN when it does not converge in 30 passes, a step is wild, theta
+ * goes above 1e4 (the flat tail) or tau leaves (tml - 20, tml): the
+ * caller then uses cr_theta. */
 static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
                       double slope0, double tol, double *mu, double *se,
                       double *slope) {
