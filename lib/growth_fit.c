@@ -608,14 +608,13 @@ static double nb_se_sums(const nbsums *z, int nc) {
 
 /* Newton on (r, b) at fixed theta; r held fixed if fixr.  Returns
  * iterations or -1. */
-static int nb_beta(const win_t *w, nbpar *p, int fixr, int maxit, double tol,
-                   double *mu) {
+static int nb_beta_from(const win_t *w, nbpar *p, int fixr, int maxit,
+                        double tol, double *mu, double lam2prev) {
   int nc = w->nc;
   double lprev = -INFINITY;
   nbpar prev = *p;
   double step_r = 0.0, step_b[7] = {0};
   int halvings = 0;
-  double lam2prev = INFINITY;
   for (int it = 1; it <= maxit * 4; it++) {
     /* the log-likelihood guards the steps; once the Newton decrement
      * has fallen below 1e-2 (steps of a tenth of a standard error) the
@@ -680,6 +679,11 @@ static int nb_beta(const win_t *w, nbpar *p, int fixr, int maxit, double tol,
       return it;
   }
   return -1;
+}
+
+static int nb_beta(const win_t *w, nbpar *p, int fixr, int maxit, double tol,
+                   double *mu) {
+  return nb_beta_from(w, p, fixr, maxit, tol, mu, INFINITY);
 }
 
 /* Newton on tau = log theta at fixed mu (MASS theta.ml score and
@@ -1105,17 +1109,21 @@ static double cr_theta(const win_t *w, nbpar *p, int maxit, double tol,
  * Newton decrement is below 1e-4: a rolling window differs from the
  * previous one in two days, whose weekday levels move the most, and
  * these cheap passes bring beta to the new days before the joint Newton
- * (whose passes cost a logarithm and a psi series per day).  Returns -1
+ * (whose passes cost a logarithm and a psi series per day).  *last gets
+ * the decrement of the last step taken (INFINITY if none).  Returns -1
  * on a matrix that is not positive definite (beta unchanged then). */
-static int nb_beta_pre(const win_t *w, nbpar *p, int k, double *mu) {
+static int nb_beta_pre(const win_t *w, nbpar *p, int k, double *mu,
+                       double *last) {
   int nc = w->nc;
   nbpar p0 = *p;
+  *last = INFINITY;
   for (int it = 0; it < k; it++) {
     nbsums z;
     nb_kernel(w, p, NBK_BETA, mu, &z);
     double ab[7], ar;
     if (arrow_solve(&z, nc, z.G, z.gr, ab, &ar) != 0 || !isfinite(ar)) {
       *p = p0;
+      *last = INFINITY;
       return -1;
     }
     double lam2 = ar * z.gr, mx = fabs(ar) * (double)w->n;
@@ -1126,11 +1134,13 @@ static int nb_beta_pre(const win_t *w, nbpar *p, int k, double *mu) {
     }
     if (!isfinite(lam2) || mx > 5.0) {
       *p = p0;
+      *last = INFINITY;
       return -1;
     }
     p->r += ar;
     for (int j = 0; j < nc; j++)
       p->b[j] += ab[j];
+    *last = lam2;
     if (lam2 < 1e-4)
       break;
   }
@@ -2127,12 +2137,16 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
     if (warm->theta < TF_THETA_CAP) {
       /* a joint fit in the flat tail (theta above 1e5) is left to the
        * alternation, as the single fit's */
-      (void)nb_beta_pre(&w, &np, 3, mu);
+      double last;
+      (void)nb_beta_pre(&w, &np, 3, mu, &last);
       done = nb_joint(&w, &np, o->tol, mu) == 0 && np.theta <= 1e5;
     } else {
       np.theta = TF_THETA_CAP;
-      (void)nb_beta_pre(&w, &np, 3, mu);
-      int itb = nb_beta(&w, &np, 0, o->max_iter, o->tol, mu);
+      /* the pre-steps' last decrement: nb_beta need not guard a first
+       * step that small with the log-likelihood */
+      double last;
+      (void)nb_beta_pre(&w, &np, 3, mu, &last);
+      int itb = nb_beta_from(&w, &np, 0, o->max_iter, o->tol, mu, last);
       if (itb >= 0) {
         double dec = INFINITY;
         nb_mu(&w, &np, mu);
