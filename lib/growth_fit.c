@@ -752,13 +752,10 @@ static double nb_theta(const win_t *w, nbpar *p, const double *mu,
   return tau - tau0;
 }
 
-/* Fill mu[t] for the present days t. */
+/* Fill mu[t] for the present days t (the kernel without sums). */
 static void nb_mu(const win_t *w, const nbpar *p, double *mu) {
-  for (size_t t = 0; t < w->n; t++) {
-    if (tf_isnan(w->y[t]))
-      continue;
-    mu[t] = exp(offv(w, t) + p->b[cls(w, t)] + p->r * (double)t);
-  }
+  nbsums z;
+  nb_kernel(w, p, 0u, mu, &z);
 }
 
 /* Full NB2 fit by alternation.  mu is scratch of w->n doubles.  Returns
