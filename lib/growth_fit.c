@@ -43,11 +43,20 @@
  * alternation's result is then polished, and a window started from the
  * previous day's estimate (rolling fits) is fitted, by Newton's method
  * on all parameters jointly (nb_joint), which falls back to the
- * alternation whenever it cannot proceed safely.  The
+ * alternation whenever it cannot proceed safely (or, rolling, ends in
+ * the flat tail above theta 1e5).  A rolling window first takes up to
+ * three Newton steps on beta alone at the previous theta (nb_beta_pre:
+ * passes without a logarithm per day), which move the levels of the
+ * days that changed.  The
  * standard error of r uses the expected information (X'WX)^{-1},
  * W = mu / (1 + mu/theta), at the estimates, as glm.nb and statsmodels'
  * GLM do (beta and theta are orthogonal in expectation: Lawless 1987,
  * Can J Stat 15:209-225).
+ *
+ * Every NB2 pass over the window's days is one kernel (nb_kernel), whose
+ * flags pick the sums a caller needs; it forms a class's means from one
+ * exponential and the theta score of a day from one logarithm (the
+ * psi(x) - log x series for x >= 10; A&S 6.3.18).
  */
 #include "growth_internal.h"
 
@@ -395,40 +404,233 @@ typedef struct {
   int iter;
 } nbpar;
 
-/* Newton on (r, b) at fixed theta; r held fixed if fixr.  Returns
- * iterations or -1. */
-static int nb_beta(const win_t *w, nbpar *p, int fixr, int maxit, double tol) {
+/* The per-day kernel is inlined into each caller, so that the flags
+ * (constants there) select its terms at compile time. */
+#if defined(__GNUC__)
+#define NB_INLINE static inline __attribute__((always_inline))
+#else
+#define NB_INLINE static inline
+#endif
+
+/* Knuth's TwoSum (Knuth 1969, TAOCP vol. 2, 4.2.2): the same compensated
+ * sum as ks_add, without branches. */
+NB_INLINE void ks_add2(ksum *k, double v) {
+  double t = k->s + v;
+  double bp = t - k->s;
+  k->c += (k->s - (t - bp)) + (v - bp);
+  k->s = t;
+}
+
+/* psi(x) - log x and psi'(x) for x >= 10: the asymptotic series of
+ * tf_digamma and tf_trigamma (Abramowitz & Stegun 1964, 6.3.18 and
+ * 6.4.12, to the x^-14 and x^-15 terms; the next terms are below 1e-16
+ * at x = 10) without the shift. */
+static inline double psi_mlog(double x) {
+  double i = 1.0 / x, i2 = i * i;
+  double ser =
+      i2 * (1.0 / 12.0 -
+            i2 * (1.0 / 120.0 -
+                  i2 * (1.0 / 252.0 -
+                        i2 * (1.0 / 240.0 -
+                              i2 * (1.0 / 132.0 -
+                                    i2 * (691.0 / 32760.0 - i2 / 12.0))))));
+  return -0.5 * i - ser;
+}
+
+static inline double tri_ser(double x) {
+  double i = 1.0 / x, i2 = i * i;
+  return i * (1.0 +
+              i * (0.5 +
+                   i * (1.0 / 6.0 -
+                        i2 * (1.0 / 30.0 -
+                              i2 * (1.0 / 42.0 -
+                                    i2 * (1.0 / 30.0 -
+                                          i2 * (5.0 / 66.0 -
+                                                i2 * (691.0 / 2730.0 -
+                                                      i2 * 7.0 / 6.0))))))));
+}
+
+/* What one theta needs for the days' theta scores: psi(theta),
+ * psi'(theta) (if ds) and log theta - psi(theta). */
+typedef struct {
+  double th, ps0, ps1, cth;
+} nbth;
+
+static void nbth_init(nbth *c, double th, int ds) {
+  c->th = th;
+  c->ps0 = tf_digamma(th);
+  c->ps1 = ds ? tf_trigamma(th) : 0.0;
+  c->cth = th >= 10.0 ? -psi_mlog(th) : log(th) - c->ps0;
+}
+
+/* A day's term of the theta score dl/dtheta,
+ *     psi(theta + y) - psi(theta) - log(1 + m/theta) + (m - y)/(m + theta),
+ * and (ds not NULL) of its derivative in theta; id = 1/(theta + m).  For
+ * theta + y >= 10 below theta = 1e3 the psi difference and the logarithm
+ * share one logarithm:
+ *     psi(theta + y) - psi(theta) - log(1 + m/theta)
+ *       = (log theta - psi(theta)) + log((theta + y)/(theta + m))
+ *         + (psi(theta + y) - log(theta + y)),
+ * the first once per theta, the last from the series; elsewhere psidiff. */
+NB_INLINE double nb_sday(const nbth *c, double y, double m, double id,
+                         double *ds) {
+  double th = c->th;
+  if (th < 1e3 && th + y >= 10.0) {
+    double x = th + y;
+    if (ds)
+      *ds = tri_ser(x) - c->ps1 + m * id / th - (m - y) * id * id;
+    /* log of the ratio (theta + y)/(theta + m): its absolute error, about
+     * 1e-16, is what log1p would leave in the sum */
+    return c->cth + log(x * id) + psi_mlog(x) + (m - y) * id;
+  }
+  double d1, d2 = 0.0;
+  psidiff(th, y, c->ps0, c->ps1, &d1, ds ? &d2 : NULL);
+  if (ds)
+    *ds = -d2 + m * id / th - (m - y) * id * id;
+  return d1 - log1p(m / th) + (m - y) * id;
+}
+
+/* The sums of one pass over the window at (beta, theta), as flags ask:
+ * NBK_BETA the score U of beta (G, gr) and its observed information (the
+ * arrow H, Hr, Hrr); NBK_C the mixed derivative d2l/dbeta dtau (C, Cr);
+ * NBK_I the expected information X'WX (I, Ir, Irr); NBK_S the score of
+ * theta S = dl/dtheta and NBK_DS its derivative DS; NBK_LL the
+ * log-likelihood without its theta-only and y-only terms.  mu[t] gets the
+ * mean of each present day t.  The days are taken class by class; without
+ * an offset the means of a class are made from one exponential by
+ * multiplying by e^{r step}, anew from exp every 8 days (relative error
+ * below 1e-15). */
+typedef struct {
+  double G[7], H[7], Hr[7], C[7], I[7], Ir[7];
+  double gr, Hrr, Cr, Irr, S, DS, ll;
+} nbsums;
+
+enum { NBK_BETA = 1, NBK_C = 2, NBK_I = 4, NBK_S = 8, NBK_DS = 16,
+       NBK_LL = 32 };
+
+NB_INLINE void nb_kernel(const win_t *w, const nbpar *p, unsigned f,
+                         double *mu, nbsums *z) {
   int nc = w->nc;
   double th = p->theta;
+  nbth c;
+  if (f & NBK_S)
+    nbth_init(&c, th, (f & NBK_DS) != 0);
+  memset(z, 0, sizeof *z);
+  ksum S = {0, 0}, D = {0, 0}, L = {0, 0};
+  size_t step = nc == 7 ? 7 : 1;
+  double e = w->off ? 0.0 : exp(p->r * (double)step);
+  double gr = 0.0, Hrr = 0.0, Cr = 0.0, Irr = 0.0;
+  /* the theta score is summed with compensation from theta = 1e3 on,
+   * where its terms cancel to O(1/theta^2); below, its few terms of
+   * order one lose nothing that matters to plain sums */
+  int comp = th >= 1e3;
+  double Sp = 0.0, Dp = 0.0;
+  for (int j = 0; j < nc; j++) {
+    size_t t0 = nc == 7 ? (size_t)((j - w->wd0 + 7) % 7) : 0;
+    double G = 0.0, H = 0.0, Hr = 0.0, C = 0.0, I = 0.0, Ir = 0.0;
+    double m = 0.0;
+    unsigned k = 0;
+    for (size_t t = t0; t < w->n; t += step, k++) {
+      double tt = (double)t;
+      if (w->off || (k & 7u) == 0)
+        m = exp(offv(w, t) + p->b[j] + p->r * tt);
+      else
+        m *= e;
+      double y = w->y[t];
+      if (tf_isnan(y))
+        continue;
+      mu[t] = m;
+      double den = th + m, id = 1.0 / den;
+      if (f & NBK_BETA) {
+        double s = th * (y - m) * id;
+        double h = th * m * (th + y) * id * id;
+        G += s;
+        gr += s * tt;
+        H += h;
+        Hr += h * tt;
+        Hrr += h * tt * tt;
+      }
+      if (f & NBK_C) {
+        double cc = th * m * (y - m) * id * id;
+        C += cc;
+        Cr += cc * tt;
+      }
+      if (f & NBK_I) {
+        double W = th * m * id;
+        I += W;
+        Ir += W * tt;
+        Irr += W * tt * tt;
+      }
+      if (f & NBK_S) {
+        double ds = 0.0;
+        double sd = nb_sday(&c, y, m, id, (f & NBK_DS) ? &ds : NULL);
+        if (comp) {
+          ks_add2(&S, sd);
+          if (f & NBK_DS)
+            ks_add2(&D, ds);
+        } else {
+          Sp += sd;
+          Dp += ds;
+        }
+      }
+      if (f & NBK_LL) {
+        double eta = offv(w, t) + p->b[j] + p->r * tt;
+        ks_add2(&L, y * eta - (y + th) * log1p(m / th));
+      }
+    }
+    z->G[j] = G;
+    z->H[j] = H;
+    z->Hr[j] = Hr;
+    z->C[j] = C;
+    z->I[j] = I;
+    z->Ir[j] = Ir;
+  }
+  z->gr = gr;
+  z->Hrr = Hrr;
+  z->Cr = Cr;
+  z->Irr = Irr;
+  z->S = comp ? ks_val(&S) : Sp;
+  z->DS = comp ? ks_val(&D) : Dp;
+  z->ll = ks_val(&L);
+}
+
+/* The expected-information SE of r from the sums (NBK_I): the inverse
+ * root of the Schur complement of X'WX in r; NAN if not positive. */
+static double nb_se_sums(const nbsums *z, int nc) {
+  double sch = z->Irr;
+  for (int j = 0; j < nc; j++) {
+    if (!(z->I[j] > 0.0))
+      return NAN;
+    sch -= z->Ir[j] * z->Ir[j] / z->I[j];
+  }
+  return sch > 0.0 ? 1.0 / sqrt(sch) : NAN;
+}
+
+/* Newton on (r, b) at fixed theta; r held fixed if fixr.  Returns
+ * iterations or -1. */
+static int nb_beta_from(const win_t *w, nbpar *p, int fixr, int maxit,
+                        double tol, double *mu, double lam2prev) {
+  int nc = w->nc;
   double lprev = -INFINITY;
   nbpar prev = *p;
   double step_r = 0.0, step_b[7] = {0};
   int halvings = 0;
   for (int it = 1; it <= maxit * 4; it++) {
-    double G[7] = {0}, H[7] = {0}, Hr[7] = {0}, gr = 0.0, Hrr = 0.0;
-    ksum l = {0, 0};
-    for (size_t t = 0; t < w->n; t++) {
-      double y = w->y[t];
-      if (tf_isnan(y))
-        continue;
-      int j = cls(w, t);
-      double tt = (double)t;
-      double eta = offv(w, t) + p->b[j] + p->r * tt;
-      double mu = exp(eta);
-      double den = th + mu;
-      double s = th * (y - mu) / den;
-      double h = th * mu * (th + y) / (den * den);
-      ks_add(&l, y * eta - (y + th) * log1p(mu / th));
-      G[j] += s;
-      H[j] += h;
-      Hr[j] += h * tt;
-      gr += s * tt;
-      Hrr += h * tt * tt;
-    }
-    double lv = ks_val(&l);
-    if (!isfinite(lv))
+    /* the log-likelihood guards the steps; once the Newton decrement
+     * has fallen below 1e-2 (steps of a tenth of a standard error) the
+     * steps are not checked, and no log1p per day is spent on it */
+    int need_ll = halvings > 0 || !(lam2prev < 1e-2);
+    nbsums z;
+    if (need_ll)
+      nb_kernel(w, p, NBK_BETA | NBK_LL, mu, &z);
+    else
+      nb_kernel(w, p, NBK_BETA, mu, &z);
+    const double *G = z.G, *H = z.H, *Hr = z.Hr;
+    double gr = z.gr, Hrr = z.Hrr;
+    double lv = need_ll ? z.ll : -INFINITY;
+    if (need_ll ? !isfinite(lv) : !isfinite(gr))
       return -1;
-    if (lv < lprev - 1e-12 * fabs(lprev) && halvings < 40) {
+    if (need_ll && lv < lprev - 1e-12 * fabs(lprev) && halvings < 40) {
       /* backtrack from the previous point */
       halvings++;
       double f = ldexp(1.0, -halvings);
@@ -460,6 +662,7 @@ static int nb_beta(const win_t *w, nbpar *p, int fixr, int maxit, double tol) {
     }
     prev = *p;
     lprev = lv;
+    lam2prev = lam2;
     /* limit wild steps on the log scale */
     double mx = fabs(dr) * (double)w->n;
     for (int j = 0; j < nc; j++)
@@ -478,6 +681,11 @@ static int nb_beta(const win_t *w, nbpar *p, int fixr, int maxit, double tol) {
   return -1;
 }
 
+static int nb_beta(const win_t *w, nbpar *p, int fixr, int maxit, double tol,
+                   double *mu) {
+  return nb_beta_from(w, p, fixr, maxit, tol, mu, INFINITY);
+}
+
 /* Newton on tau = log theta at fixed mu (MASS theta.ml score and
  * information).  Returns the change in tau, NAN on failure; *dec gets the
  * Newton decrement in tau at the start (log-likelihood units). */
@@ -488,19 +696,16 @@ static double nb_theta(const win_t *w, nbpar *p, const double *mu,
   p->capped = 0;
   for (int it = 0; it < 60; it++) {
     double th = exp(tau);
-    double ps0 = tf_digamma(th), ps1 = tf_trigamma(th);
+    nbth c;
+    nbth_init(&c, th, 1);
     ksum S = {0, 0}, D = {0, 0};
-    size_t k = 0;
     for (size_t t = 0; t < w->n; t++) {
       double y = w->y[t];
       if (tf_isnan(y))
         continue;
-      double m = mu[k++];
-      double d1, d2;
-      psidiff(th, y, ps0, ps1, &d1, &d2);
-      ks_add(&S, d1 - log1p(m / th) + (m - y) / (m + th));
-      /* dS/dtheta */
-      ks_add(&D, -d2 + m / (th * (th + m)) - (m - y) / ((m + th) * (m + th)));
+      double m = mu[t], ds;
+      ks_add(&S, nb_sday(&c, y, m, 1.0 / (th + m), &ds));
+      ks_add(&D, ds); /* dS/dtheta */
     }
     double s = ks_val(&S), ds = ks_val(&D);
     double g = th * s;                 /* dl/dtau   */
@@ -547,23 +752,19 @@ static double nb_theta(const win_t *w, nbpar *p, const double *mu,
   return tau - tau0;
 }
 
-/* Fill mu for the present days (in order). */
+/* Fill mu[t] for the present days t (the kernel without sums). */
 static void nb_mu(const win_t *w, const nbpar *p, double *mu) {
-  size_t k = 0;
-  for (size_t t = 0; t < w->n; t++) {
-    if (tf_isnan(w->y[t]))
-      continue;
-    mu[k++] = exp(offv(w, t) + p->b[cls(w, t)] + p->r * (double)t);
-  }
+  nbsums z;
+  nb_kernel(w, p, 0u, mu, &z);
 }
 
-/* Full NB2 fit by alternation.  mu is scratch of w->used doubles.  Returns
+/* Full NB2 fit by alternation.  mu is scratch of w->n doubles.  Returns
  * 0 or -1 (no convergence). */
 static int nb_fit(const win_t *w, nbpar *p, int fixr, int maxit, double tol,
                   double *mu) {
   int total = 0;
   for (int outer = 0; outer < 4 * maxit; outer++) {
-    int it = nb_beta(w, p, fixr, maxit, tol);
+    int it = nb_beta(w, p, fixr, maxit, tol, mu);
     if (it < 0)
       return -1;
     total += it;
@@ -602,49 +803,29 @@ static double nb_loglik(const win_t *w, const nbpar *p) {
 }
 
 /* Expected-information SE of r, and (pearson not NULL) Pearson X^2 and
- * deviance at p. */
+ * deviance at p; mu is scratch of w->n doubles. */
 static void nb_stats(const win_t *w, const nbpar *p, double *se,
-                     double *pearson, double *dev) {
-  int nc = w->nc;
+                     double *pearson, double *dev, double *mu) {
   double th = p->theta;
-  double I[7] = {0}, Ir[7] = {0};
+  nbsums z;
+  nb_kernel(w, p, NBK_I, mu, &z);
+  *se = nb_se_sums(&z, w->nc);
+  if (pearson == NULL)
+    return;
   ksum X2 = {0, 0}, D = {0, 0};
   for (size_t t = 0; t < w->n; t++) {
     double y = w->y[t];
     if (tf_isnan(y))
       continue;
-    int j = cls(w, t);
-    double mu = exp(offv(w, t) + p->b[j] + p->r * (double)t);
-    double W = th * mu / (th + mu);
-    I[j] += W;
-    Ir[j] += W * (double)t;
-    if (pearson == NULL)
-      continue;
-    double v = mu + mu * mu / th;
-    ks_add(&X2, (y - mu) * (y - mu) / v);
-    double dd = (y > 0.0 ? y * log(y / mu) : 0.0) -
-                (y + th) * log1p((y - mu) / (mu + th));
+    double m = mu[t];
+    double v = m + m * m / th;
+    ks_add(&X2, (y - m) * (y - m) / v);
+    double dd = (y > 0.0 ? y * log(y / m) : 0.0) -
+                (y + th) * log1p((y - m) / (m + th));
     ks_add(&D, 2.0 * dd);
   }
-  double tbar[7];
-  for (int j = 0; j < nc; j++)
-    tbar[j] = Ir[j] / I[j];
-  double sch = 0.0;
-  for (size_t t = 0; t < w->n; t++) {
-    double y = w->y[t];
-    if (tf_isnan(y))
-      continue;
-    int j = cls(w, t);
-    double mu = exp(offv(w, t) + p->b[j] + p->r * (double)t);
-    double W = th * mu / (th + mu);
-    double d = (double)t - tbar[j];
-    sch += W * d * d;
-  }
-  *se = 1.0 / sqrt(sch);
-  if (pearson) {
-    *pearson = ks_val(&X2);
-    *dev = ks_val(&D);
-  }
+  *pearson = ks_val(&X2);
+  *dev = ks_val(&D);
 }
 
 /* ------------------------------------------------------------------ */
@@ -675,18 +856,9 @@ static double prof_eval(prof_ctx *c, double r, double *d1) {
     return NAN;
   }
   /* score for r at the constrained optimum */
-  double th = c->nb.theta, g = 0.0;
-  size_t k = 0;
-  for (size_t t = 0; t < c->w->n; t++) {
-    double y = c->w->y[t];
-    if (tf_isnan(y))
-      continue;
-    double mu = c->mu[k++];
-    (void)mu;
-    double m = exp(offv(c->w, t) + c->nb.b[cls(c->w, t)] + r * (double)t);
-    g += th * (y - m) / (th + m) * (double)t;
-  }
-  *d1 = g;
+  nbsums z;
+  nb_kernel(c->w, &c->nb, NBK_BETA, c->mu, &z);
+  *d1 = z.gr;
   return nb_loglik(c->w, &c->nb);
 }
 
@@ -746,6 +918,60 @@ static double prof_root(prof_ctx *c, double rhat, double lhat, double target,
 /* Cox-Reid adjusted theta                                             */
 /* ------------------------------------------------------------------ */
 
+/* Solve the arrow system (H, Hr, Hrr) x = (v, vr): x = (xb, xr).  Returns
+ * -1 if it is not positive definite. */
+static int arrow_solve(const nbsums *z, int nc, const double *v, double vr,
+                       double *xb, double *xr) {
+  double sch = z->Hrr, rhs = vr;
+  for (int j = 0; j < nc; j++) {
+    if (!(z->H[j] > 0.0))
+      return -1;
+    sch -= z->Hr[j] * z->Hr[j] / z->H[j];
+    rhs -= z->Hr[j] * v[j] / z->H[j];
+  }
+  if (!(sch > 0.0))
+    return -1;
+  *xr = rhs / sch;
+  for (int j = 0; j < nc; j++)
+    xb[j] = (v[j] - z->Hr[j] * *xr) / z->H[j];
+  return 0;
+}
+
+/* The derivative of the Cox-Reid adjusted profile log-likelihood in tau
+ * (cr_grad) at a point where beta = beta_theta, from the sums of a pass
+ * there (NBK_BETA | NBK_C | NBK_I | NBK_S) and its means: theta S minus
+ * half d/dtau log det X'WX, dbeta/dtau = (cb, cr) = H^{-1} (C, Cr) (see
+ * cr_grad).  NAN if X'WX is not positive definite. */
+static double cr_score(const win_t *w, double th, const nbsums *z,
+                       const double *cb, double cr, const double *mu) {
+  int nc = w->nc;
+  double tbar[7], iI[7], schI = z->Irr;
+  for (int j = 0; j < nc; j++) {
+    if (!(z->I[j] > 0.0))
+      return NAN;
+    iI[j] = 1.0 / z->I[j];
+    tbar[j] = z->Ir[j] * iI[j];
+    schI -= z->Ir[j] * tbar[j];
+  }
+  if (!(schI > 0.0))
+    return NAN;
+  double isch = 1.0 / schI, dld = 0.0;
+  size_t step = nc == 7 ? 7 : 1;
+  for (int j = 0; j < nc; j++) {
+    size_t t0 = nc == 7 ? (size_t)((j - w->wd0 + 7) % 7) : 0;
+    for (size_t t = t0; t < w->n; t += step) {
+      if (tf_isnan(w->y[t]))
+        continue;
+      double tt = (double)t, m = mu[t];
+      double id = 1.0 / (th + m);
+      double dW = th * m * (m + th * (cb[j] + tt * cr)) * id * id;
+      double d = tt - tbar[j];
+      dld += dW * (iI[j] + d * d * isch);
+    }
+  }
+  return th * z->S - 0.5 * dld;
+}
+
 /* Derivative in tau = log theta of the Cox-Reid adjusted profile
  * log-likelihood (Cox & Reid 1987, JRSS B 49:1-39)
  *     l_CR(theta) = l(beta_theta, theta) - 1/2 log det(X'W X),
@@ -758,80 +984,23 @@ static double prof_root(prof_ctx *c, double rhat, double lhat, double target,
  * score; H the observed information of beta), the leverages
  * x_t'(X'WX)^{-1}x_t = 1/I_j + (t - tbar_j)^2 / S from the arrow-shaped
  * information (S its Schur complement in r).  p is updated to beta_theta;
- * mu is scratch of w->used doubles. */
+ * mu is scratch of w->n doubles. */
 static double cr_grad(const win_t *w, nbpar *p, double tau, int maxit,
                       double tol, int *fail, double *mu) {
   p->theta = exp(tau);
-  if (nb_beta(w, p, 0, maxit, tol) < 0) {
+  if (nb_beta(w, p, 0, maxit, tol, mu) < 0) {
     *fail = 1;
     return NAN;
   }
-  int nc = w->nc;
-  double th = p->theta;
-  double ps0 = tf_digamma(th), ps1 = tf_trigamma(th);
-  double I[7] = {0}, Ir[7] = {0}, Irr = 0.0;      /* expected (X'WX)  */
-  double H[7] = {0}, Hr[7] = {0}, Hrr = 0.0;      /* observed         */
-  double G[7] = {0}, Gr = 0.0;                    /* d2l/dbeta dtau   */
-  ksum S = {0, 0};
-  size_t k = 0;
-  for (size_t t = 0; t < w->n; t++) {
-    double y = w->y[t];
-    if (tf_isnan(y))
-      continue;
-    int j = cls(w, t);
-    double tt = (double)t;
-    double m = exp(offv(w, t) + p->b[j] + p->r * tt);
-    mu[k++] = m;
-    double den = th + m, i2 = 1.0 / (den * den);
-    double W = th * m / den;
-    double h = th * m * (th + y) * i2;
-    double gt = th * m * (y - m) * i2;
-    double d1, d2;
-    psidiff(th, y, ps0, ps1, &d1, NULL);
-    (void)d2;
-    ks_add(&S, d1 - log1p(m / th) + (m - y) / den);
-    I[j] += W;
-    Ir[j] += W * tt;
-    Irr += W * tt * tt;
-    H[j] += h;
-    Hr[j] += h * tt;
-    Hrr += h * tt * tt;
-    G[j] += gt;
-    Gr += gt * tt;
-  }
-  /* dbeta = H^{-1} G (arrow solve) and the Schur complement of X'WX */
-  double schH = Hrr, rhs = Gr, schI = Irr, tbar[7];
-  for (int j = 0; j < nc; j++) {
-    if (!(H[j] > 0.0) || !(I[j] > 0.0)) {
-      *fail = 1;
-      return NAN;
-    }
-    schH -= Hr[j] * Hr[j] / H[j];
-    rhs -= Hr[j] * G[j] / H[j];
-    tbar[j] = Ir[j] / I[j];
-    schI -= Ir[j] * tbar[j];
-  }
-  if (!(schH > 0.0) || !(schI > 0.0)) {
+  nbsums z;
+  nb_kernel(w, p, NBK_BETA | NBK_C | NBK_I | NBK_S, mu, &z);
+  double cb[7], cr;
+  double g = arrow_solve(&z, w->nc, z.C, z.Cr, cb, &cr) != 0
+                 ? NAN
+                 : cr_score(w, p->theta, &z, cb, cr, mu);
+  if (tf_isnan(g))
     *fail = 1;
-    return NAN;
-  }
-  double dr = rhs / schH, db[7];
-  for (int j = 0; j < nc; j++)
-    db[j] = (G[j] - Hr[j] * dr) / H[j];
-  double dld = 0.0;
-  k = 0;
-  for (size_t t = 0; t < w->n; t++) {
-    if (tf_isnan(w->y[t]))
-      continue;
-    int j = cls(w, t);
-    double tt = (double)t;
-    double m = mu[k++];
-    double den = th + m, i2 = 1.0 / (den * den);
-    double dW = th * m * (m + th * (db[j] + tt * dr)) * i2;
-    double d = tt - tbar[j];
-    dld += dW * (1.0 / I[j] + d * d / schI);
-  }
-  return th * ks_val(&S) - 0.5 * dld;
+  return g;
 }
 
 /* The Cox-Reid adjusted theta: the root of cr_grad below the ML value,
@@ -839,7 +1008,7 @@ static double cr_grad(const win_t *w, nbpar *p, double tau, int maxit,
  * tried at guess +- 0.02), then refined by the Illinois variant of
  * false position.  p (in: the ML fit) gets beta at the adjusted theta;
  * *slope the slope of cr_grad between the last two points (the next
- * window's first guess of it); mu is scratch of w->used doubles. */
+ * window's first guess of it); mu is scratch of w->n doubles. */
 static double cr_theta(const win_t *w, nbpar *p, int maxit, double tol,
                        int *fail, double guess, double *mu, double *slope) {
   *slope = NAN;
@@ -898,7 +1067,7 @@ static double cr_theta(const win_t *w, nbpar *p, int maxit, double tol,
     double gc = cr_grad(w, &pc, c, maxit, tol, fail, mu);
     if (*fail)
       return NAN;
-    if (c != xl)
+    if (fabs(c - xl) > 1e-6)
       *slope = (gc - gl) / (c - xl);
     xl = c;
     gl = gc;
@@ -932,72 +1101,46 @@ static double cr_theta(const win_t *w, nbpar *p, int maxit, double tol,
 /* Warm-started NB2 fits for rolling windows                           */
 /* ------------------------------------------------------------------ */
 
-/* The sums of one pass over the window at (beta, tau): the score U of
- * beta (G, gr), its observed information (the arrow H, Hr, Hrr), the
- * mixed derivative d2l/dbeta dtau (C, Cr), the expected information
- * X'WX (I, Ir, Irr), and the score of theta S = dl/dtheta with (need_ds)
- * its derivative DS. */
-typedef struct {
-  double G[7], H[7], Hr[7], C[7], I[7], Ir[7];
-  double gr, Hrr, Cr, Irr, S, DS;
-} nbsums;
-
-static void nb_pass(const win_t *w, const nbpar *p, int need_ds, double *mu,
-                    nbsums *z) {
-  double th = p->theta;
-  double ps0 = tf_digamma(th), ps1 = need_ds ? tf_trigamma(th) : 0.0;
-  memset(z, 0, sizeof *z);
-  ksum S = {0, 0}, D = {0, 0};
-  size_t k = 0;
-  for (size_t t = 0; t < w->n; t++) {
-    double y = w->y[t];
-    if (tf_isnan(y))
-      continue;
-    int j = cls(w, t);
-    double tt = (double)t;
-    double m = exp(offv(w, t) + p->b[j] + p->r * tt);
-    mu[k++] = m;
-    double den = th + m, id = 1.0 / den, i2 = id * id;
-    double s = th * (y - m) * id;
-    double h = th * m * (th + y) * i2;
-    double c = th * m * (y - m) * i2;
-    double W = th * m * id;
-    double d1, d2 = 0.0;
-    psidiff(th, y, ps0, ps1, &d1, need_ds ? &d2 : NULL);
-    ks_add(&S, d1 - log1p(m / th) + (m - y) * id);
-    if (need_ds)
-      ks_add(&D, -d2 + m / (th * den) - (m - y) * i2);
-    z->G[j] += s;
-    z->gr += s * tt;
-    z->H[j] += h;
-    z->Hr[j] += h * tt;
-    z->Hrr += h * tt * tt;
-    z->C[j] += c;
-    z->Cr += c * tt;
-    z->I[j] += W;
-    z->Ir[j] += W * tt;
-    z->Irr += W * tt * tt;
-  }
-  z->S = ks_val(&S);
-  z->DS = ks_val(&D);
-}
-
-/* Solve the arrow system (H, Hr, Hrr) x = (v, vr): x = (xb, xr).  Returns
- * -1 if it is not positive definite. */
-static int arrow_solve(const nbsums *z, int nc, const double *v, double vr,
-                       double *xb, double *xr) {
-  double sch = z->Hrr, rhs = vr;
-  for (int j = 0; j < nc; j++) {
-    if (!(z->H[j] > 0.0))
+/* Up to k Newton steps on beta at fixed theta from a warm start, without
+ * the log-likelihood or the theta score (no logarithm per day), until the
+ * Newton decrement is below 1e-4: a rolling window differs from the
+ * previous one in two days, whose weekday levels move the most, and
+ * these cheap passes bring beta to the new days before the joint Newton
+ * (whose passes cost a logarithm and a psi series per day).  *last gets
+ * the decrement of the last step taken (INFINITY if none).  Returns -1
+ * on a matrix that is not positive definite (beta unchanged then). */
+static int nb_beta_pre(const win_t *w, nbpar *p, int k, double *mu,
+                       double *last) {
+  int nc = w->nc;
+  nbpar p0 = *p;
+  *last = INFINITY;
+  for (int it = 0; it < k; it++) {
+    nbsums z;
+    nb_kernel(w, p, NBK_BETA, mu, &z);
+    double ab[7], ar;
+    if (arrow_solve(&z, nc, z.G, z.gr, ab, &ar) != 0 || !isfinite(ar)) {
+      *p = p0;
+      *last = INFINITY;
       return -1;
-    sch -= z->Hr[j] * z->Hr[j] / z->H[j];
-    rhs -= z->Hr[j] * v[j] / z->H[j];
+    }
+    double lam2 = ar * z.gr, mx = fabs(ar) * (double)w->n;
+    for (int j = 0; j < nc; j++) {
+      lam2 += ab[j] * z.G[j];
+      if (fabs(ab[j]) > mx)
+        mx = fabs(ab[j]);
+    }
+    if (!isfinite(lam2) || mx > 5.0) {
+      *p = p0;
+      *last = INFINITY;
+      return -1;
+    }
+    p->r += ar;
+    for (int j = 0; j < nc; j++)
+      p->b[j] += ab[j];
+    *last = lam2;
+    if (lam2 < 1e-4)
+      break;
   }
-  if (!(sch > 0.0))
-    return -1;
-  *xr = rhs / sch;
-  for (int j = 0; j < nc; j++)
-    xb[j] = (v[j] - z->Hr[j] * *xr) / z->H[j];
   return 0;
 }
 
@@ -1009,14 +1152,15 @@ static int arrow_solve(const nbsums *z, int nc, const double *v, double vr,
  * may be wild and theta must stay well below the cap; otherwise it
  * returns -1 and the caller alternates from the same start.  It stops
  * once the Newton decrement is below 1e-2 tol, after that last step.
- * mu is scratch of w->used doubles. */
+ * mu is scratch of w->n doubles. */
 static int nb_joint(const win_t *w, nbpar *p, double tol, double *mu) {
   int nc = w->nc;
   const double taumax = log(TF_THETA_CAP) - 2.0;
   double tau = log(p->theta);
+  double lam2prev = INFINITY, fprev = 0.0;
   for (int it = 1; it <= 30; it++) {
     nbsums z;
-    nb_pass(w, p, 1, mu, &z);
+    nb_kernel(w, p, NBK_BETA | NBK_C | NBK_S | NBK_DS, mu, &z);
     double th = p->theta;
     double gt = th * z.S;                   /* dl/dtau    */
     double hh = th * z.S + th * th * z.DS;  /* d2l/dtau2  */
@@ -1056,7 +1200,16 @@ static int nb_joint(const win_t *w, nbpar *p, double tol, double *mu) {
     if (!(tau < taumax && tau > -25.0))
       return -1;
     p->theta = exp(tau);
-    if (lam2 < 1e-2 * tol && f == 1.0) {
+    /* done: a decrement below 1e-2 tol, or, in the quadratic regime
+     * (two undamped steps), a predicted next decrement
+     * lam2^3 / lam2prev^2 below 1e-11 tol (the prediction is rough: the
+     * decrements seen after such a step are up to 1e3 times larger, and
+     * still far below 1e-2 tol) */
+    int quad = f == 1.0 && fprev == 1.0 && lam2 < 1e-6 &&
+               lam2 * lam2 * lam2 < 1e-11 * tol * lam2prev * lam2prev;
+    lam2prev = lam2;
+    fprev = f;
+    if ((lam2 < 1e-2 * tol && f == 1.0) || quad) {
       p->capped = 0;
       p->iter = it;
       return 0;
@@ -1069,31 +1222,44 @@ static int nb_joint(const win_t *w, nbpar *p, double tol, double *mu) {
  * log and of the slope of cr_grad in tau (the previous window's), by
  * passes that each take the Newton step of beta at the current tau and
  * the secant step of tau on the adjusted score, beta moved along with
- * dbeta/dtau; the first pass only brings beta to the guessed tau.  The
- * fixed point is the root of cr_grad with beta = beta_theta.  Stops once
- * the beta step is below tol (Newton decrement) and the tau step below
- * 1e-8 with a secant slope of this window (in the flat tail of large
- * theta the adjusted score tends to 0, and a step from the previous
- * window's slope alone can look converged), after those steps; then the
- * expected-information SE of r at the result goes to *se.  p (in: the ML fit, log theta tml) gets beta at
- * the adjusted theta; *slope the last secant slope.  Returns the adjusted
- * theta, or NAN when it does not converge in 30 passes, a step is wild,
- * or tau leaves (tml - 20, tml): the caller then uses cr_theta. */
+ * dbeta/dtau.  The first pass is at the ML fit (log theta tml), where
+ * beta = beta_theta: a non-negative adjusted score there gives the ML
+ * theta itself, as cr_theta does; else the step goes to the guess (or
+ * by the slope).  A guess more than 0.5 below tml (the ML theta at its
+ * cap, the adjusted one far below) is started at instead, with the ML
+ * beta.  The score is moved to first order by the beta step not yet
+ * taken (the mixed derivatives), and the size of that move bounds its
+ * error: a secant slope is taken only from scores that differ by more
+ * than 10 times their bounds.  The fixed point is the root of cr_grad
+ * with beta = beta_theta.  Stops, after those steps, once the beta step
+ * is below tol (Newton decrement), the score's bound below 1e-9 times
+ * the slope and the tau step below 1e-8 (or below 1e-5 with the error
+ * it leaves, by the ratio of the last two steps, below 1e-11), all with
+ * a secant slope of this window (in the flat tail of large theta the
+ * adjusted score tends to 0, and a step from the previous window's slope
+ * alone can look converged); then the expected-information SE of r at
+ * the result goes to *se.  p (in: the ML fit) gets beta at the adjusted
+ * theta; *slope the last secant slope.  Returns the adjusted theta, or
+ * NAN when it does not converge in 30 passes, a step is wild, theta
+ * goes above 1e4 (the flat tail) or tau leaves (tml - 20, tml): the
+ * caller then uses cr_theta. */
 static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
                       double slope0, double tol, double *mu, double *se,
                       double *slope) {
   int nc = w->nc;
-  if (!(guess < tml))
-    return NAN;
   nbpar q = *p;
+  /* a guess more than 0.5 below the ML value: start there, the first
+   * pass a Newton step of beta alone; else start at the ML fit */
+  int far = isfinite(guess) && guess < tml - 0.5;
+  double tau = far ? guess : tml, tprev = NAN, gprev = NAN, egprev = 0.0;
+  double dtprev = INFINITY;
   /* without a previous slope, -1 (about its size in short windows) */
-  double tau = guess, tprev = NAN, gprev = NAN;
   double sl = slope0 < 0.0 && isfinite(slope0) ? slope0 : -1.0;
   int own = 0; /* a secant slope of this window seen */
   q.theta = exp(tau);
   for (int it = 0; it < 30; it++) {
     nbsums z;
-    nb_pass(w, &q, 0, mu, &z);
+    nb_kernel(w, &q, NBK_BETA | NBK_C | NBK_I | NBK_S, mu, &z);
     double th = q.theta;
     double ab[7], ar, cb[7], cr;
     if (arrow_solve(&z, nc, z.G, z.gr, ab, &ar) != 0 ||
@@ -1102,51 +1268,51 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
     double lam2 = ar * z.gr;
     for (int j = 0; j < nc; j++)
       lam2 += ab[j] * z.G[j];
-    double dtau = 0.0;
-    if (it > 0) {
-      /* cr_grad: theta S minus half d/dtau log det X'WX (see there) */
-      double tbar[7], schI = z.Irr;
-      for (int j = 0; j < nc; j++) {
-        if (!(z.I[j] > 0.0))
-          return NAN;
-        tbar[j] = z.Ir[j] / z.I[j];
-        schI -= z.Ir[j] * tbar[j];
-      }
-      if (!(schI > 0.0))
-        return NAN;
-      double dld = 0.0;
-      size_t k = 0;
-      for (size_t t = 0; t < w->n; t++) {
-        if (tf_isnan(w->y[t]))
-          continue;
-        int j = cls(w, t);
-        double tt = (double)t;
-        double m = mu[k++];
-        double den = th + m;
-        double dW = th * m * (m + th * (cb[j] + tt * cr)) / (den * den);
-        double d = tt - tbar[j];
-        dld += dW * (1.0 / z.I[j] + d * d / schI);
-      }
-      double g = th * z.S - 0.5 * dld;
-      if (!isfinite(g))
-        return NAN;
-      if (it > 1 && tau != tprev) {
-        double s2 = (g - gprev) / (tau - tprev);
-        if (s2 < 0.0 && isfinite(s2)) {
-          sl = s2;
-          own = 1;
-        }
-      }
-      tprev = tau;
-      gprev = g;
+    double g = cr_score(w, th, &z, cb, cr, mu);
+    if (!isfinite(g))
+      return NAN;
+    /* to first order, the score at beta_theta: theta S moves by the
+     * mixed derivatives times the Newton step of beta; the log
+     * determinant moves too, so the size of that move bounds the error
+     * of g (eg) */
+    double corr = ar * z.Cr;
+    for (int j = 0; j < nc; j++)
+      corr += ab[j] * z.C[j];
+    g += corr;
+    double eg = fabs(corr);
+    double dtau;
+    if (it == 0 && far) {
       dtau = -g / sl;
-      if (tf_isnan(dtau))
-        return NAN;
-      if (dtau > 0.5) /* the guess was far: a damped step */
-        dtau = 0.5;
-      else if (dtau < -0.5)
-        dtau = -0.5;
+    } else if (it == 0) {
+      /* at the ML fit, beta = beta_theta: the adjusted score there */
+      if (g >= 0.0) {
+        /* at the cap (flat) or already stationary, as cr_theta */
+        *se = nb_se_sums(&z, nc);
+        if (!isfinite(*se))
+          return NAN;
+        *slope = NAN;
+        return q.theta;
+      }
+      dtau = isfinite(guess) && guess < tml ? guess - tml : -g / sl;
+    } else {
+      /* a secant slope only from differences well above the errors */
+      double s2 = (g - gprev) / (tau - tprev);
+      if (!tf_isnan(gprev) && s2 < 0.0 && isfinite(s2) &&
+          fabs(g - gprev) > 10.0 * (eg + egprev)) {
+        sl = s2;
+        own = 1;
+      }
+      dtau = -g / sl;
     }
+    tprev = tau;
+    gprev = g;
+    egprev = eg;
+    if (tf_isnan(dtau))
+      return NAN;
+    if (dtau > 0.5) /* the guess was far: a damped step */
+      dtau = 0.5;
+    else if (dtau < -0.5)
+      dtau = -0.5;
     double dr = ar + cr * dtau;
     if (!(fabs(dr) * (double)w->n <= 2.0))
       return NAN;
@@ -1157,14 +1323,23 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
     if (!(tau < tml && tau > tml - 20.0))
       return NAN;
     q.theta = exp(tau);
+    /* in the flat tail of large theta the root is ill-determined: leave
+     * it to the bracketing search, as the single fit does */
+    if (!(q.theta <= 1e4))
+      return NAN;
     if (fabs(dtau) == 0.5)
       own = 0; /* a damped step: no convergence yet */
-    if (own && lam2 < tol && fabs(dtau) < 1e-8) {
-      /* in the flat tail of large theta the root is ill-determined:
-       * leave it to the bracketing search, as the single fit does */
-      if (!(q.theta <= 1e4))
-        return NAN;
-      nb_stats(w, &q, se, NULL, NULL);
+    /* converged: beta's step below tol, the score's error small, and
+     * the tau step below 1e-8 or, with the steps shrinking
+     * superlinearly (the slope from points less than 1e-3 apart), the
+     * error left after it (about dtau times the ratio of the last two
+     * steps) below 1e-11 */
+    double left = fabs(dtprev) < 1e-3 ? fabs(dtau) * fabs(dtau / dtprev)
+                                       : INFINITY;
+    dtprev = dtau;
+    if (own && lam2 < tol && eg < 1e-9 * fabs(sl) &&
+        (fabs(dtau) < 1e-8 || (left < 1e-11 && fabs(dtau) < 1e-5))) {
+      nb_stats(w, &q, se, NULL, NULL, mu);
       if (!isfinite(*se))
         return NAN;
       *p = q;
@@ -1380,9 +1555,9 @@ static int nb_small(const win_t *w, const nbpar *ml, tf_quant *Q, double df,
     if (bad || !(th > 0.0))
       return -1;
     p.theta = th;
-    if (nb_beta(w, &p, 0, maxit, tol) < 0)
+    if (nb_beta(w, &p, 0, maxit, tol, mu) < 0)
       return -1;
-    nb_stats(w, &p, &se, NULL, NULL);
+    nb_stats(w, &p, &se, NULL, NULL, mu);
   }
   double q = tf_quant_t(Q, df);
   *lo = p.r - q * se;
@@ -1914,7 +2089,7 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
   /* NB2: start from the Poisson fit (or the warm start) */
   double z = Q->z;
   double c = Q->c;
-  double *mu = malloc(w.used * sizeof *mu);
+  double *mu = malloc(w.n * sizeof *mu);
   if (mu == NULL)
     return fail(res, TWOFOLD_ENOMEM, "out of memory%s%.0f", "", 0.0);
   nbpar np;
@@ -1938,11 +2113,10 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
     /* moment start, as MASS: theta0 = n / sum (y/mu - 1)^2 */
     nb_mu(&w, &np, mu);
     double s = 0.0;
-    size_t k = 0;
     for (size_t t = 0; t < n; t++) {
       if (tf_isnan(y[t]))
         continue;
-      double d = y[t] / mu[k++] - 1.0;
+      double d = y[t] / mu[t] - 1.0;
       s += d * d;
     }
     double th0 = (double)w.used / s;
@@ -1957,18 +2131,34 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
   int done = 0;
   if (wuse && isfinite(warm->theta) && warm->theta > 0.0) {
     nbpar np0 = np;
-    if (warm->theta >= TF_THETA_CAP) {
+    if (warm->theta < TF_THETA_CAP) {
+      /* a joint fit in the flat tail (theta above 1e5) is left to the
+       * alternation, as the single fit's */
+      double last;
+      (void)nb_beta_pre(&w, &np, 3, mu, &last);
+      done = nb_joint(&w, &np, o->tol, mu) == 0 && np.theta <= 1e5;
+    } else {
       np.theta = TF_THETA_CAP;
-      int itb = nb_beta(&w, &np, 0, o->max_iter, o->tol);
+      /* the pre-steps' last decrement: nb_beta need not guard a first
+       * step that small with the log-likelihood */
+      double last;
+      (void)nb_beta_pre(&w, &np, 3, mu, &last);
+      int itb = nb_beta_from(&w, &np, 0, o->max_iter, o->tol, mu, last);
       if (itb >= 0) {
         double dec = INFINITY;
         nb_mu(&w, &np, mu);
         double dt = nb_theta(&w, &np, mu, &dec);
         done = np.capped && dt == 0.0;
         np.iter = itb + 1;
+        if (!done && !np.capped && isfinite(dt)) {
+          /* theta leaves the cap: the joint Newton from beta at the cap
+           * and theta after the Newton steps of nb_theta, unless it ends
+           * in the flat tail (theta above 1e5), where the alternation
+           * settles whether the fit goes back to the cap */
+          done = nb_joint(&w, &np, o->tol, mu) == 0 && np.theta <= 1e5;
+          np.iter += itb + 1;
+        }
       }
-    } else {
-      done = nb_joint(&w, &np, o->tol, mu) == 0;
     }
     if (!done)
       np = np0;
@@ -1998,10 +2188,10 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
   if (np.capped)
     res->flags |= TWOFOLD_FIT_THETA_CAPPED;
   if (want & TF_WANT_LOGLIK) {
-    nb_stats(&w, &np, &res->se, &res->pearson, &res->dev);
+    nb_stats(&w, &np, &res->se, &res->pearson, &res->dev, mu);
     res->disp = res->pearson / res->df;
   } else if (want & (TF_WANT_WALD | TF_WANT_PROFILE)) {
-    nb_stats(&w, &np, &res->se, NULL, NULL);
+    nb_stats(&w, &np, &res->se, NULL, NULL, mu);
   } /* else (rolling, small-sample interval only): no use for the ML SE */
   int need_ll = (want & (TF_WANT_LOGLIK | TF_WANT_PROFILE)) != 0;
   double lhat = need_ll ? nb_loglik(&w, &np) : NAN;

@@ -26,9 +26,15 @@
  * adds 0); their class power sums skip the missing days, so each class
  * is its own group (one exponential per evaluation still).  Windows with
  * offsets, and NB2 windows, use the general fit (O(w) per iteration).
- * Every window starts from the previous day's estimate (NB2: also its
- * Cox-Reid adjustment of theta), and the interval quantiles are computed
- * once per call.
+ * Every window starts from the previous day's estimate, and the interval
+ * quantiles are computed once per call.  NB2 (growth_fit.c): beta is
+ * first brought to the new days by cheap Newton passes at the previous
+ * theta, then the joint Newton (or, theta at its cap, beta at the cap)
+ * runs; the Cox-Reid search for the small-sample interval starts at the
+ * ML fit (ending there at once when the adjusted score is non-negative)
+ * and steps to the previous window's offset of the adjusted theta from
+ * the ML one, with the previous secant slope; its stopping rules ask for
+ * small steps measured against the error of the adjusted score.
  */
 #include "growth_internal.h"
 

@@ -525,6 +525,84 @@ START_TEST(roll_edges_equal_fit) {
     }
   for (int k = 0; k < 4; k++)
     ck_assert_int_gt(seen[k], 0);
+
+/* NB2 rolling fits take several warm-started paths (joint Newton; theta
+ * at its cap; the Cox-Reid search from the ML fit, from a far guess, or
+ * ended at once when the adjusted score is non-negative at the ML fit):
+ * a 240-day series whose first half is overdispersed (a deterministic
+ * multiplicative wiggle, no source) and whose second half follows a
+ * smooth curve with small counts (ML theta at the cap), every window
+ * compared with the single fit as roll_vs_fit_shape does (1e-8 relative
+ * to max(|r|, SE); a self-consistency check, common practice, no
+ * source), and each kind of window required to occur, so that every
+ * path is exercised. */
+static void roll_nb_paths(int kind, int align, size_t w) {
+  enum { N = 240 };
+  double y[N];
+  make_series(y, N, 30, 0.0, 2);
+  for (size_t t = 0; t < N; t++) {
+    double tt = (double)t;
+    double g = t < 120 ? 0.02 * tt : 2.4 - 0.025 * (tt - 120.0);
+    double u = exp((t < 120 ? 0.6 : 0.45) * sin(12.9898 * tt) * cos(3.7 * tt));
+    y[t] = floor(y[t] * exp(g) * u * (t < 120 ? 1.0 : 0.12) + 0.5);
+  }
+  y[150] = NAN;
+  twofold_fit_options *o = opts(TWOFOLD_MODEL_NEGBIN, 1);
+  ck_assert_int_eq(twofold_fit_options_set_interval(o, kind), 0);
+  double rate[N], lo[N], hi[N];
+  int st[N];
+  ck_assert_int_eq(twofold_growth_roll(o, y, NULL, N, 2, w, align, rate, lo,
+                                       hi, st),
+                   0);
+  twofold_fit *f;
+  ck_assert_int_eq(twofold_fit_new(&f), 0);
+  int capped = 0, free_theta = 0, cr_at_ml = 0, cr_below = 0, far = 0;
+  for (size_t i = 0; i < N; i++) {
+    long s = align == TWOFOLD_ALIGN_TRAILING ? (long)i - (long)w + 1
+                                              : (long)i - (long)((w - 1) / 2);
+    if (s < 0 || (size_t)s + w > N)
+      continue;
+    int fwd = 1 + (int)((1 + (size_t)s) % 7);
+    int rc = twofold_growth_fit(f, o, y + s, NULL, w, fwd);
+    ck_assert_int_eq(rc, st[i]);
+    if (rc)
+      continue;
+    double flo, fhi;
+    twofold_fit_interval(f, TWOFOLD_INTERVAL_DEFAULT, &flo, &fhi);
+    double r = twofold_fit_rate(f), se = twofold_fit_rate_se(f);
+    double tol = 1e-8 * fmax(fabs(r), se);
+    ck_assert_msg(fabs(rate[i] - r) <= tol && fabs(lo[i] - flo) <= tol &&
+                      fabs(hi[i] - fhi) <= tol,
+                  "day %zu kind %d: roll %.15g [%.15g, %.15g] fit %.15g "
+                  "[%.15g, %.15g]",
+                  i, kind, rate[i], lo[i], hi[i], r, flo, fhi);
+    if (twofold_fit_flags(f) & TWOFOLD_FIT_THETA_CAPPED)
+      capped++;
+    else
+      free_theta++;
+    double th = twofold_fit_theta(f), ta = twofold_fit_theta_adjusted(f);
+    if (ta == th)
+      cr_at_ml++;
+    else if (ta < th)
+      cr_below++;
+    if (ta < 1e-3 * th) /* far below the ML value (at its cap) */
+      far++;
+  }
+  ck_assert_msg(capped > 5 && free_theta > 5,
+                "capped %d, free %d windows", capped, free_theta);
+  if (kind == TWOFOLD_INTERVAL_DEFAULT)
+    ck_assert_msg(cr_at_ml > 2 && cr_below > 5 && far > 5,
+                  "adjusted theta at the ML value %d, below %d, far below "
+                  "%d",
+                  cr_at_ml, cr_below, far);
+  twofold_fit_free(f);
+  twofold_fit_options_free(o);
+}
+
+START_TEST(roll_nb_warm_paths) {
+  roll_nb_paths(TWOFOLD_INTERVAL_DEFAULT, TWOFOLD_ALIGN_TRAILING, 21);
+  roll_nb_paths(TWOFOLD_INTERVAL_DEFAULT, TWOFOLD_ALIGN_CENTRED, 17);
+  roll_nb_paths(TWOFOLD_INTERVAL_WALD, TWOFOLD_ALIGN_TRAILING, 21);
 }
 END_TEST
 
@@ -565,6 +643,7 @@ Suite *growth_suite(void) {
   tcase_add_test(tc, nine_day_doubling);
   tcase_add_test(tc, roll_equals_fit);
   tcase_add_test(tc, roll_edges_equal_fit);
+  tcase_add_test(tc, roll_nb_warm_paths);
   tcase_add_test(tc, roll_arguments);
   suite_add_tcase(s, tc);
   return s;
