@@ -525,6 +525,8 @@ START_TEST(roll_edges_equal_fit) {
     }
   for (int k = 0; k < 4; k++)
     ck_assert_int_gt(seen[k], 0);
+}
+END_TEST
 
 /* NB2 rolling fits take several warm-started paths (joint Newton; theta
  * at its cap; the Cox-Reid search from the ML fit, from a far guess, or
