@@ -719,7 +719,10 @@ static double lgamma_rest(double x) {
  * gathered as ap log(ap / (beta + x)) - log sqrt(ap (-f'')) with the
  * Stirling series (two logarithms). */
 /* f', f'' and f''' of tf_seg_jump_ps at b from E_0..E_3 about the start
- * and eh = e^{-b h}, with the Halley step; 0, or 1 when out of range. */
+ * and eh = e^{-b h}, with the Halley step; 0, or 1 when out of range.
+ * Over common denominators with one division where the products stay in
+ * range (they do unless E0 is beyond about 1e70), else with the
+ * normalized moments (two divisions in a row). */
 typedef struct jps_der {
   double bx, ibx, r, m1, z, f1, f2, f3, sn, step;
 } jps_der;
@@ -729,6 +732,42 @@ static inline int jps_derivs(const double *E, double eh, double b, double h,
                              double rmean, double isd, double isd2,
                              jps_der *o) {
   double x = eh * E[0] * iphi, bx = beta + x;
+  {
+    /* the same over the common denominators, with one division: with
+     * P = E0 (beta + x), W = V E0^2, M1 = m1 E0, M2 = m2 E0^2 and
+     * K3 = k3 E0^3, f' = F1/P, f'' = -N2/P^2, f''' = -ap T1/P^3 */
+    double E0 = E[0], E1 = E[1], E2 = E[2], E3 = E[3], P = E0 * bx;
+    double W = E2 * E0 - E1 * E1;
+    if (W < 0)
+      W = 0;
+    double M1 = E1 - h * E0, M2 = W + M1 * M1;
+    double K3 = E0 * E0 * E3 - E1 * (3 * E2 * E0 - 2 * E1 * E1);
+    double z = (b - rmean) * isd;
+    double N2 = ap * x * (x * W + beta * M2) + isd2 * P * P;
+    double F1 = (S1p - z * isd) * P - ap * x * M1;
+    double bM1 = beta * M1;
+    double T1 = x * (2 * x * bM1 * W + x * K3 * bx + bM1 * (beta - x) * M2 +
+                     beta * bx * (K3 + 2 * M1 * W));
+    double PN = P * N2;
+    if (PN >= DBL_MIN && PN <= DBL_MAX && N2 > 0 && isfinite(T1) &&
+        isfinite(F1)) {
+      double iPN = 1 / PN, iP = N2 * iPN, iN2 = P * iPN;
+      double sn = F1 * P * iN2, a = 0.5 * ap * T1 * sn * iPN;
+      double iP2 = iP * iP;
+      o->bx = bx;
+      o->ibx = E0 * iP;
+      o->r = x * E0 * iP;
+      o->m1 = M1 * bx * iP;
+      o->z = z;
+      o->f1 = F1 * iP;
+      o->f2 = -N2 * iP2;
+      o->f3 = -ap * T1 * iP2 * iP;
+      o->sn = sn;
+      o->step = fabs(a) <= 0.25 ? sn * (1 - a + a * a) : sn;
+      if (o->f2 < 0 && isfinite(sn))
+        return 0;
+    }
+  }
   /* 1/E0 and 1/(beta + x) from one division */
   double D = E[0] * bx, iD = 1 / D, ie, ibx;
   if (D <= DBL_MAX && D >= DBL_MIN) {
