@@ -721,7 +721,7 @@ static double lgamma_rest(double x) {
 /* f', f'' and f''' of tf_seg_jump_ps at b from E_0..E_3 about the start
  * and eh = e^{-b h}, with the Halley step; 0, or 1 when out of range.
  * Over common denominators with one division where the products stay in
- * range (they do unless E0 is beyond about 1e70), else with the
+ * range (E0^3 times about ap x^3 L^3 below DBL_MAX), else with the
  * normalized moments (two divisions in a row). */
 typedef struct jps_der {
   double bx, ibx, r, m1, z, f1, f2, f3, sn, step;
