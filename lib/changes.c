@@ -17,7 +17,9 @@
  * candidate ends, so all results are those of one (truncated) model.
  * JUMP segments [t, e] for one start t are evaluated with one set of
  * incremental power sums (segment.c, tf_psum), grown by a day as e grows,
- * each warm-started from the modes of [t, e-1] and [t, e-2]; the most
+ * each fit started from the last evaluation for [t, e-1] with day e's
+ * term added (tf_seg_jump_ps; the modes of [t, e-1] and [t, e-2]
+ * extrapolated where that is not at hand); the most
  * probable segments' fits and twofold_changes_segment_logml use the same
  * solver on fresh sums.
  */

@@ -110,6 +110,12 @@ typedef struct tf_psum {
   double z;      /* e^{bref (next - s)}                              */
   int bad;       /* sums left double range: unusable                 */
   double A[TF_PSUM_N];
+  /* the last full evaluation of tf_seg_jump_ps, kept to start the fit of
+   * the segment one day longer (wok 0: none) */
+  int wok;
+  size_t wend;   /* the segment end it was made for                  */
+  double wb;     /* the slope it was made at                          */
+  double wE[4];  /* E_0..E_3 at wb over the days s..wend              */
 } tf_psum;
 
 /* Empty sums starting at day s, reference slope bref. */

@@ -17,7 +17,9 @@
  * mean and variance, as the offline recursion does, so without resampling
  * the filter reproduces the offline posterior (tests/check_changes.c).
  * JUMP candidates keep the power sums of their start (tf_psum), grown by a
- * day at each update, so an update costs no exponential per past day.
+ * day at each update, so an update costs no exponential per past day;
+ * each candidate's fit starts from its last evaluation, the day before,
+ * with the new day's term added (tf_seg_jump_ps).
  */
 
 #include <gsl/gsl_sf_psi.h>
