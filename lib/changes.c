@@ -548,13 +548,11 @@ static inline size_t cidx(const twofold_changes *ch, size_t s, size_t e) {
   return ch->off[s] + (e - s);
 }
 
-int tf_cp_results(twofold_changes *ch) {
+/* The forward pass over the cache: Fa[t] accumulated as e^fm[t] * fs[t]
+ * while the starts before t push their terms; final when the scan reaches
+ * t.  (KINK by Laplace messages has Fa from its own forward pass.) */
+static int forward(twofold_changes *ch) {
   size_t n = ch->n;
-  int K = ch->opt.max_changes;
-  double lZ = ch->Q[0];
-  ch->logZ = lZ;
-  /* forward pass: Fa[t] accumulated as e^fm[t] * fs[t] while the starts
-   * before t push their terms; final when the scan reaches t */
   double *fm = malloc((n + 1) * sizeof(double));
   double *fs = malloc((n + 1) * sizeof(double));
   if (!fm || !fs) {
@@ -582,6 +580,19 @@ int tf_cp_results(twofold_changes *ch) {
   ch->Fa[n] = lsum_log(fm[n], fs[n]);
   free(fm);
   free(fs);
+  return 0;
+}
+
+int tf_cp_results(twofold_changes *ch, int have_fa) {
+  size_t n = ch->n;
+  int K = ch->opt.max_changes;
+  double lZ = ch->Q[0];
+  ch->logZ = lZ;
+  if (!have_fa) {
+    int rc = forward(ch);
+    if (rc)
+      return rc;
+  }
   /* change probabilities; pr (unclamped) for the segment weights below */
   double *pr = malloc((n + 1) * sizeof(double));
   if (!pr)
@@ -599,11 +610,15 @@ int tf_cp_results(twofold_changes *ch) {
    * Growth: segment weights into difference arrays (METHODS A2).
    * Number of changes (METHODS A2): the ratios r_j(t) = F_j(t) / F(t) obey
    * r_{j+1}(e+1) = sum_s r_j(s) W(s, e), and Pr(K = j | y) =
-   * sum_s r_j(s) W(s, n-1), all in [0, 1], so no logarithms are needed. */
+   * sum_s r_j(s) W(s, n-1), all in [0, 1], so no logarithms are needed.
+   * r is held start-major (the K+1 values of one day together), so the
+   * inner loop over j runs over contiguous memory; a start's own
+   * difference-array entries are summed in registers and added once. */
   double *d0 = calloc(n + 1, sizeof(double));
   double *d1 = calloc(n + 1, sizeof(double));
   double *d2 = calloc(n + 1, sizeof(double));
-  double *rj = calloc((size_t)(K + 1) * (n + 1), sizeof(double));
+  size_t nk = (size_t)K + 1;
+  double *rj = calloc(nk * (n + 1), sizeof(double));
   if (!d0 || !d1 || !d2 || !rj) {
     free(d0);
     free(d1);
@@ -616,19 +631,20 @@ int tf_cp_results(twofold_changes *ch) {
     ch->kprob[m] = 0;
   rj[0] = 1; /* r_0(0): no change before day 0 */
   int jump = ch->d.kind != TWOFOLD_CP_LEVEL; /* KINK (Laplace): as JUMP */
-  size_t np1 = n + 1;
   for (size_t s = 0; s < n; s++) {
     if (ch->Fa[s] == -INFINITY)
       continue;
+    const double *rs = rj + s * nk;
     /* r_j(s) above 1e-20 (Pr(j changes before s | change at s)) only for
      * j in [jlo, jhi]; the others are left out, as negligible */
     int jlo = -1, jhi = -1;
     for (int j = 0; j <= K; j++)
-      if (rj[(size_t)j * np1 + s] > 1e-20) {
+      if (rs[j] > 1e-20) {
         if (jlo < 0)
           jlo = j;
         jhi = j;
       }
+    double a0 = 0, a1 = 0, a2 = 0; /* d0[s], d1[s], d2[s] from this start */
     for (size_t e = s; e <= ch->stop[s]; e++) {
       size_t k = cidx(ch, s, e);
       double lp = ch->clogP[k];
@@ -647,24 +663,28 @@ int tf_cp_results(twofold_changes *ch) {
         continue;
       if (w != 0) {
         double b = jump ? ch->cb[k] : 0, v = jump ? ch->cv[k] : 0;
-        d0[s] += w;
+        a0 += w;
         d0[e + 1] -= w;
-        d1[s] += w * b;
+        a1 += w * b;
         d1[e + 1] -= w * b;
-        d2[s] += w * (b * b + v);
+        a2 += w * (b * b + v);
         d2[e + 1] -= w * (b * b + v);
       }
       if (jlo < 0)
         continue;
       if (e + 1 == n) {
         for (int j = jlo; j <= jhi; j++)
-          ch->kprob[j] += rj[(size_t)j * np1 + s] * W;
+          ch->kprob[j] += rs[j] * W;
       } else {
         int top = jhi < K ? jhi : K - 1;
+        double *re = rj + (e + 1) * nk + 1;
         for (int j = jlo; j <= top; j++)
-          rj[(size_t)(j + 1) * np1 + e + 1] += rj[(size_t)j * np1 + s] * W;
+          re[j] += rs[j] * W;
       }
     }
+    d0[s] += a0;
+    d1[s] += a1;
+    d2[s] += a2;
   }
   free(rj);
   free(pr);
@@ -870,7 +890,7 @@ int twofold_changes_run(twofold_changes *ch, const twofold_cp_options *o,
     rc = backward(ch);
     if (rc)
       return fail(ch, rc);
-    rc = tf_cp_results(ch);
+    rc = tf_cp_results(ch, 0);
     if (rc)
       return fail(ch, rc);
   }

@@ -263,8 +263,9 @@ int tf_kink_run(struct twofold_changes *ch);
 int tf_kinkl_run(struct twofold_changes *ch);
 /* Results from Q, Fa, stop, off and the segment cache: change
  * probabilities, growth, the count distribution and the MAP
- * segmentation. */
-int tf_cp_results(struct twofold_changes *ch);
+ * segmentation.  have_fa: Fa[0..n-1] is already filled (by a forward pass
+ * over the same candidates); otherwise it is computed from the cache. */
+int tf_cp_results(struct twofold_changes *ch, int have_fa);
 void tf_kink_free(struct tf_kink *k);
 int tf_kink_sample(const struct twofold_changes *ch, uint64_t seed,
                    size_t draws, unsigned char *change, double *rate,

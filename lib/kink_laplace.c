@@ -963,7 +963,7 @@ int tf_kinkl_run(twofold_changes *ch) {
                     n);
     goto out;
   }
-  rc = tf_cp_results(ch);
+  rc = tf_cp_results(ch, 1);
   if (rc)
     goto out;
   /* levels of the most probable segments: the count at the middle day
