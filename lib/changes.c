@@ -583,7 +583,22 @@ static int forward(twofold_changes *ch) {
   return 0;
 }
 
-int tf_cp_results(twofold_changes *ch, int have_fa) {
+/* y[i] += a x[i], i < m, four at a time (the same additions as the plain
+ * loop; the unrolled form lets the compiler pair them). */
+static void axpy(double *restrict y, const double *restrict x, double a,
+                 size_t m) {
+  size_t i = 0;
+  for (; i + 4 <= m; i += 4) {
+    y[i] += a * x[i];
+    y[i + 1] += a * x[i + 1];
+    y[i + 2] += a * x[i + 2];
+    y[i + 3] += a * x[i + 3];
+  }
+  for (; i < m; i++)
+    y[i] += a * x[i];
+}
+
+int tf_cp_results(twofold_changes *ch, int have_fa, const double *cw) {
   size_t n = ch->n;
   int K = ch->opt.max_changes;
   double lZ = ch->Q[0];
@@ -611,19 +626,23 @@ int tf_cp_results(twofold_changes *ch, int have_fa) {
    * Number of changes (METHODS A2): the ratios r_j(t) = F_j(t) / F(t) obey
    * r_{j+1}(e+1) = sum_s r_j(s) W(s, e), and Pr(K = j | y) =
    * sum_s r_j(s) W(s, n-1), all in [0, 1], so no logarithms are needed.
-   * r is held start-major (the K+1 values of one day together), so the
-   * inner loop over j runs over contiguous memory; a start's own
-   * difference-array entries are summed in registers and added once. */
+   * r is held per j over the days; for each start the W of its ends are
+   * collected first (Wt, 0 where impossible), so r_{j+1}(s+1..) +=
+   * r_j(s) Wt is one contiguous axpy per j (the same additions in the
+   * same order as one candidate at a time); a start's own difference-array
+   * entries are summed in registers and added once. */
   double *d0 = calloc(n + 1, sizeof(double));
   double *d1 = calloc(n + 1, sizeof(double));
   double *d2 = calloc(n + 1, sizeof(double));
-  size_t nk = (size_t)K + 1;
-  double *rj = calloc(nk * (n + 1), sizeof(double));
-  if (!d0 || !d1 || !d2 || !rj) {
+  size_t np1 = n + 1;
+  double *rj = calloc((size_t)(K + 1) * np1, sizeof(double));
+  double *Wt = malloc(n * sizeof(double));
+  if (!d0 || !d1 || !d2 || !rj || !Wt) {
     free(d0);
     free(d1);
     free(d2);
     free(rj);
+    free(Wt);
     free(pr);
     return TWOFOLD_ENOMEM;
   }
@@ -634,24 +653,28 @@ int tf_cp_results(twofold_changes *ch, int have_fa) {
   for (size_t s = 0; s < n; s++) {
     if (ch->Fa[s] == -INFINITY)
       continue;
-    const double *rs = rj + s * nk;
     /* r_j(s) above 1e-20 (Pr(j changes before s | change at s)) only for
      * j in [jlo, jhi]; the others are left out, as negligible */
     int jlo = -1, jhi = -1;
     for (int j = 0; j <= K; j++)
-      if (rs[j] > 1e-20) {
+      if (rj[(size_t)j * np1 + s] > 1e-20) {
         if (jlo < 0)
           jlo = j;
         jhi = j;
       }
     double a0 = 0, a1 = 0, a2 = 0; /* d0[s], d1[s], d2[s] from this start */
-    for (size_t e = s; e <= ch->stop[s]; e++) {
+    size_t stop = ch->stop[s];
+    for (size_t e = s; e <= stop; e++) {
       size_t k = cidx(ch, s, e);
       double lp = ch->clogP[k];
+      Wt[e - s] = 0;
       if (lp == -INFINITY)
         continue;
       double W, w;
-      if (e + 1 < n) {
+      if (cw) {
+        W = cw[k];
+        w = e + 1 < n ? W * pr[e + 1] : W;
+      } else if (e + 1 < n) {
         W = exp(ch->Fa[s] + lp + tf_lg(&ch->lp, s, e - s + 1) -
                 ch->Fa[e + 1]);
         w = W * pr[e + 1];
@@ -661,6 +684,7 @@ int tf_cp_results(twofold_changes *ch, int have_fa) {
       }
       if (W == 0)
         continue;
+      Wt[e - s] = W;
       if (w != 0) {
         double b = jump ? ch->cb[k] : 0, v = jump ? ch->cv[k] : 0;
         a0 += w;
@@ -670,22 +694,24 @@ int tf_cp_results(twofold_changes *ch, int have_fa) {
         a2 += w * (b * b + v);
         d2[e + 1] -= w * (b * b + v);
       }
-      if (jlo < 0)
-        continue;
-      if (e + 1 == n) {
-        for (int j = jlo; j <= jhi; j++)
-          ch->kprob[j] += rs[j] * W;
-      } else {
-        int top = jhi < K ? jhi : K - 1;
-        double *re = rj + (e + 1) * nk + 1;
-        for (int j = jlo; j <= top; j++)
-          re[j] += rs[j] * W;
-      }
     }
     d0[s] += a0;
     d1[s] += a1;
     d2[s] += a2;
+    if (jlo < 0)
+      continue;
+    /* ends before n-1 feed r_{j+1}(e+1); the end n-1 feeds P(K = j) */
+    size_t lim = stop + 1 < n ? stop + 1 : n - 1; /* ends e < lim */
+    size_t m = lim > s ? lim - s : 0;
+    int top = jhi < K ? jhi : K - 1;
+    for (int j = jlo; j <= top && m > 0; j++)
+      axpy(rj + (size_t)(j + 1) * np1 + s + 1, Wt, rj[(size_t)j * np1 + s],
+           m);
+    if (stop + 1 == n && Wt[stop - s] != 0)
+      for (int j = jlo; j <= jhi; j++)
+        ch->kprob[j] += rj[(size_t)j * np1 + s] * Wt[stop - s];
   }
+  free(Wt);
   free(rj);
   free(pr);
   double a0 = 0, a1 = 0, a2 = 0;
@@ -890,7 +916,7 @@ int twofold_changes_run(twofold_changes *ch, const twofold_cp_options *o,
     rc = backward(ch);
     if (rc)
       return fail(ch, rc);
-    rc = tf_cp_results(ch, 0);
+    rc = tf_cp_results(ch, 0, NULL);
     if (rc)
       return fail(ch, rc);
   }

@@ -264,8 +264,11 @@ int tf_kinkl_run(struct twofold_changes *ch);
 /* Results from Q, Fa, stop, off and the segment cache: change
  * probabilities, growth, the count distribution and the MAP
  * segmentation.  have_fa: Fa[0..n-1] is already filled (by a forward pass
- * over the same candidates); otherwise it is computed from the cache. */
-int tf_cp_results(struct twofold_changes *ch, int have_fa);
+ * over the same candidates); otherwise it is computed from the cache.
+ * cw, if not NULL: per cache entry the weight W(s, e) of the segment given
+ * that a segment ends at e (given y for e = n-1), as the forward pass of
+ * KINK computes it; otherwise W is taken from Fa, the cache and Q. */
+int tf_cp_results(struct twofold_changes *ch, int have_fa, const double *cw);
 void tf_kink_free(struct tf_kink *k);
 int tf_kink_sample(const struct twofold_changes *ch, uint64_t seed,
                    size_t draws, unsigned char *change, double *rate,
