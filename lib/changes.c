@@ -621,7 +621,8 @@ int tf_cp_results(twofold_changes *ch, int have_fa, const double *cw) {
   /* One pass over the candidates.  W = Pr(segment [s, e] | a segment
    * ends at e) = F(s-1) P(s,e) g(e-s+1) / F(e) for e < n-1, and for the
    * last segment Pr([s, n-1] | y); the segment probability (METHODS A2) is
-   * then W Pr(change on day e+1 | y), one exp per candidate.
+   * then W Pr(change on day e+1 | y): one exp per candidate, or none when
+   * the forward pass of KINK has kept W (cw).
    * Growth: segment weights into difference arrays (METHODS A2).
    * Number of changes (METHODS A2): the ratios r_j(t) = F_j(t) / F(t) obey
    * r_{j+1}(e+1) = sum_s r_j(s) W(s, e), and Pr(K = j | y) =
