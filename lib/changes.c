@@ -390,9 +390,12 @@ static void changes_clear(twofold_changes *ch) {
   free(ch->Fa);
   free(ch->stop);
   free(ch->off);
-  free(ch->clogP);
-  free(ch->cb);
-  free(ch->cv);
+  if (!ch->cache_pooled) {
+    free(ch->clogP);
+    free(ch->cb);
+    free(ch->cv);
+  }
+  ch->cache_pooled = 0;
   free(ch->pch);
   free(ch->gmean);
   free(ch->gsd);
@@ -416,10 +419,20 @@ static void changes_clear(twofold_changes *ch) {
   ch->nmap = 0;
 }
 
+/* The buffers kept between KINK runs (after changes_clear). */
+static void pool_free(twofold_changes *ch) {
+  for (int i = 0; i < 4; i++) {
+    free(ch->pool[i]);
+    ch->pool[i] = NULL;
+  }
+  ch->poolcap = 0;
+}
+
 void twofold_changes_free(twofold_changes *ch) {
   if (!ch)
     return;
   changes_clear(ch);
+  pool_free(ch);
   free(ch);
 }
 
@@ -899,6 +912,8 @@ int twofold_changes_run(twofold_changes *ch, const twofold_cp_options *o,
   rc = alloc_results(ch);
   if (rc)
     return fail(ch, rc);
+  if (!(ch->opt.kind == TWOFOLD_CP_KINK && ch->opt.grid == 0))
+    pool_free(ch); /* only KINK by Laplace messages uses the kept buffers */
   if (ch->opt.kind == TWOFOLD_CP_KINK && ch->opt.grid > 0) {
     rc = tf_kink_run(ch);
     if (rc)
@@ -1152,9 +1167,13 @@ int twofold_changes_map_segment(const twofold_changes *ch, size_t k,
 
 int twofold_changes_shrink(twofold_changes *ch) {
   NEED_RUN(ch);
-  free(ch->clogP);
-  free(ch->cb);
-  free(ch->cv);
+  if (!ch->cache_pooled) {
+    free(ch->clogP);
+    free(ch->cb);
+    free(ch->cv);
+  }
+  ch->cache_pooled = 0;
+  pool_free(ch);
   ch->clogP = ch->cb = ch->cv = NULL;
   ch->ncache = ch->capcache = 0;
   tf_kink_free(ch->kink);

@@ -244,6 +244,14 @@ struct twofold_changes {
   size_t *stop, *off;
   double *clogP, *cb, *cv;
   size_t ncache, capcache;
+  /* KINK (Laplace) with the direct cache: clogP, cb, cv and the forward
+   * pass's W (pool[3]) point into these buffers, kept from run to run
+   * (capacity poolcap entries each), so a reused object does not take
+   * fresh pages for every series; cache_pooled: clogP etc. are pool[0..2]
+   * and not to be freed on their own. */
+  double *pool[4];
+  size_t poolcap;
+  int cache_pooled;
   /* results */
   double *pch, *gmean, *gsd; /* n each */
   double *kprob;             /* max_changes + 1 */

@@ -684,7 +684,8 @@ typedef struct kl_work {
   double *qs, *qg;   /* per active start: e^{sv - max sv}, times the hazard */
   double *hz, *hz0;  /* hazard g(L) / S(L-1), L = 0..n (later, first segment) */
   double *tmp;       /* n, for the backward sums                 */
-  double *cw;        /* direct cache only: W(s, e) per entry (below)  */
+  double *cw;        /* direct cache only: W(s, e) per entry (below);
+                      * ch->pool[3], not freed here */
   int direct;        /* the cache written in place (see tf_kinkl_run) */
 } kl_work;
 
@@ -702,7 +703,6 @@ static void kl_work_free(kl_work *w) {
   free(w->hz);
   free(w->hz0);
   free(w->tmp);
-  free(w->cw);
 }
 
 /* The forward pass: messages, Fa, the e-major cache and stop[].
@@ -895,12 +895,22 @@ int tf_kinkl_run(twofold_changes *ch) {
    * series collect e-major entries and reorder them after the pass. */
   if (n <= KL_DIRECT_DAYS) {
     size_t total = n * (n + 1) / 2;
-    ch->clogP = malloc(total * sizeof(double));
-    ch->cb = malloc(total * sizeof(double));
-    ch->cv = malloc(total * sizeof(double));
-    w.cw = malloc(total * sizeof(double));
-    if (!ch->clogP || !ch->cb || !ch->cv || !w.cw)
-      goto out;
+    if (ch->poolcap < total) {
+      for (int i = 0; i < 4; i++) {
+        free(ch->pool[i]);
+        ch->pool[i] = NULL;
+      }
+      ch->poolcap = 0;
+      for (int i = 0; i < 4; i++)
+        if (!(ch->pool[i] = malloc(total * sizeof(double))))
+          goto out;
+      ch->poolcap = total;
+    }
+    ch->clogP = ch->pool[0];
+    ch->cb = ch->pool[1];
+    ch->cv = ch->pool[2];
+    w.cw = ch->pool[3];
+    ch->cache_pooled = 1;
     ch->ncache = ch->capcache = total;
     for (size_t s = 0; s < n; s++)
       ch->off[s] = s * n - (s * (s - 1)) / 2; /* sum of n - j, j < s */
@@ -985,7 +995,6 @@ int tf_kinkl_run(twofold_changes *ch) {
     goto out;
   }
   rc = tf_cp_results(ch, 1, w.cw);
-  free(w.cw);
   w.cw = NULL;
   if (rc)
     goto out;
