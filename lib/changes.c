@@ -392,9 +392,12 @@ static void changes_clear(twofold_changes *ch) {
   free(ch->Fa);
   free(ch->stop);
   free(ch->off);
-  free(ch->clogP);
-  free(ch->cb);
-  free(ch->cv);
+  if (!ch->cache_pooled) {
+    free(ch->clogP);
+    free(ch->cb);
+    free(ch->cv);
+  }
+  ch->cache_pooled = 0;
   free(ch->pch);
   free(ch->gmean);
   free(ch->gsd);
@@ -418,10 +421,20 @@ static void changes_clear(twofold_changes *ch) {
   ch->nmap = 0;
 }
 
+/* The buffers kept between KINK runs (after changes_clear). */
+static void pool_free(twofold_changes *ch) {
+  for (int i = 0; i < 4; i++) {
+    free(ch->pool[i]);
+    ch->pool[i] = NULL;
+  }
+  ch->poolcap = 0;
+}
+
 void twofold_changes_free(twofold_changes *ch) {
   if (!ch)
     return;
   changes_clear(ch);
+  pool_free(ch);
   free(ch);
 }
 
@@ -550,13 +563,11 @@ static inline size_t cidx(const twofold_changes *ch, size_t s, size_t e) {
   return ch->off[s] + (e - s);
 }
 
-int tf_cp_results(twofold_changes *ch) {
+/* The forward pass over the cache: Fa[t] accumulated as e^fm[t] * fs[t]
+ * while the starts before t push their terms; final when the scan reaches
+ * t.  (KINK by Laplace messages has Fa from its own forward pass.) */
+static int forward(twofold_changes *ch) {
   size_t n = ch->n;
-  int K = ch->opt.max_changes;
-  double lZ = ch->Q[0];
-  ch->logZ = lZ;
-  /* forward pass: Fa[t] accumulated as e^fm[t] * fs[t] while the starts
-   * before t push their terms; final when the scan reaches t */
   double *fm = malloc((n + 1) * sizeof(double));
   double *fs = malloc((n + 1) * sizeof(double));
   if (!fm || !fs) {
@@ -584,6 +595,34 @@ int tf_cp_results(twofold_changes *ch) {
   ch->Fa[n] = lsum_log(fm[n], fs[n]);
   free(fm);
   free(fs);
+  return 0;
+}
+
+/* y[i] += a x[i], i < m, four at a time (the same additions as the plain
+ * loop; the unrolled form lets the compiler pair them). */
+static void axpy(double *restrict y, const double *restrict x, double a,
+                 size_t m) {
+  size_t i = 0;
+  for (; i + 4 <= m; i += 4) {
+    y[i] += a * x[i];
+    y[i + 1] += a * x[i + 1];
+    y[i + 2] += a * x[i + 2];
+    y[i + 3] += a * x[i + 3];
+  }
+  for (; i < m; i++)
+    y[i] += a * x[i];
+}
+
+int tf_cp_results(twofold_changes *ch, int have_fa, const double *cw) {
+  size_t n = ch->n;
+  int K = ch->opt.max_changes;
+  double lZ = ch->Q[0];
+  ch->logZ = lZ;
+  if (!have_fa) {
+    int rc = forward(ch);
+    if (rc)
+      return rc;
+  }
   /* change probabilities; pr (unclamped) for the segment weights below */
   double *pr = malloc((n + 1) * sizeof(double));
   if (!pr)
@@ -597,20 +636,29 @@ int tf_cp_results(twofold_changes *ch) {
   /* One pass over the candidates.  W = Pr(segment [s, e] | a segment
    * ends at e) = F(s-1) P(s,e) g(e-s+1) / F(e) for e < n-1, and for the
    * last segment Pr([s, n-1] | y); the segment probability (METHODS A2) is
-   * then W Pr(change on day e+1 | y), one exp per candidate.
+   * then W Pr(change on day e+1 | y): one exp per candidate, or none when
+   * the forward pass of KINK has kept W (cw).
    * Growth: segment weights into difference arrays (METHODS A2).
    * Number of changes (METHODS A2): the ratios r_j(t) = F_j(t) / F(t) obey
    * r_{j+1}(e+1) = sum_s r_j(s) W(s, e), and Pr(K = j | y) =
-   * sum_s r_j(s) W(s, n-1), all in [0, 1], so no logarithms are needed. */
+   * sum_s r_j(s) W(s, n-1), all in [0, 1], so no logarithms are needed.
+   * r is held per j over the days; for each start the W of its ends are
+   * collected first (Wt, 0 where impossible), so r_{j+1}(s+1..) +=
+   * r_j(s) Wt is one contiguous axpy per j (the same additions in the
+   * same order as one candidate at a time); a start's own difference-array
+   * entries are summed in registers and added once. */
   double *d0 = calloc(n + 1, sizeof(double));
   double *d1 = calloc(n + 1, sizeof(double));
   double *d2 = calloc(n + 1, sizeof(double));
-  double *rj = calloc((size_t)(K + 1) * (n + 1), sizeof(double));
-  if (!d0 || !d1 || !d2 || !rj) {
+  size_t np1 = n + 1;
+  double *rj = calloc((size_t)(K + 1) * np1, sizeof(double));
+  double *Wt = malloc(n * sizeof(double));
+  if (!d0 || !d1 || !d2 || !rj || !Wt) {
     free(d0);
     free(d1);
     free(d2);
     free(rj);
+    free(Wt);
     free(pr);
     return TWOFOLD_ENOMEM;
   }
@@ -618,7 +666,6 @@ int tf_cp_results(twofold_changes *ch) {
     ch->kprob[m] = 0;
   rj[0] = 1; /* r_0(0): no change before day 0 */
   int jump = ch->d.kind != TWOFOLD_CP_LEVEL; /* KINK (Laplace): as JUMP */
-  size_t np1 = n + 1;
   for (size_t s = 0; s < n; s++) {
     if (ch->Fa[s] == -INFINITY)
       continue;
@@ -631,13 +678,19 @@ int tf_cp_results(twofold_changes *ch) {
           jlo = j;
         jhi = j;
       }
-    for (size_t e = s; e <= ch->stop[s]; e++) {
+    double a0 = 0, a1 = 0, a2 = 0; /* d0[s], d1[s], d2[s] from this start */
+    size_t stop = ch->stop[s];
+    for (size_t e = s; e <= stop; e++) {
       size_t k = cidx(ch, s, e);
       double lp = ch->clogP[k];
+      Wt[e - s] = 0;
       if (lp == -INFINITY)
         continue;
       double W, w;
-      if (e + 1 < n) {
+      if (cw) {
+        W = cw[k];
+        w = e + 1 < n ? W * pr[e + 1] : W;
+      } else if (e + 1 < n) {
         W = exp(ch->Fa[s] + lp + tf_lg(&ch->lp, s, e - s + 1) -
                 ch->Fa[e + 1]);
         w = W * pr[e + 1];
@@ -647,27 +700,34 @@ int tf_cp_results(twofold_changes *ch) {
       }
       if (W == 0)
         continue;
+      Wt[e - s] = W;
       if (w != 0) {
         double b = jump ? ch->cb[k] : 0, v = jump ? ch->cv[k] : 0;
-        d0[s] += w;
+        a0 += w;
         d0[e + 1] -= w;
-        d1[s] += w * b;
+        a1 += w * b;
         d1[e + 1] -= w * b;
-        d2[s] += w * (b * b + v);
+        a2 += w * (b * b + v);
         d2[e + 1] -= w * (b * b + v);
       }
-      if (jlo < 0)
-        continue;
-      if (e + 1 == n) {
-        for (int j = jlo; j <= jhi; j++)
-          ch->kprob[j] += rj[(size_t)j * np1 + s] * W;
-      } else {
-        int top = jhi < K ? jhi : K - 1;
-        for (int j = jlo; j <= top; j++)
-          rj[(size_t)(j + 1) * np1 + e + 1] += rj[(size_t)j * np1 + s] * W;
-      }
     }
+    d0[s] += a0;
+    d1[s] += a1;
+    d2[s] += a2;
+    if (jlo < 0)
+      continue;
+    /* ends before n-1 feed r_{j+1}(e+1); the end n-1 feeds P(K = j) */
+    size_t lim = stop + 1 < n ? stop + 1 : n - 1; /* ends e < lim */
+    size_t m = lim > s ? lim - s : 0;
+    int top = jhi < K ? jhi : K - 1;
+    for (int j = jlo; j <= top && m > 0; j++)
+      axpy(rj + (size_t)(j + 1) * np1 + s + 1, Wt, rj[(size_t)j * np1 + s],
+           m);
+    if (stop + 1 == n && Wt[stop - s] != 0)
+      for (int j = jlo; j <= jhi; j++)
+        ch->kprob[j] += rj[(size_t)j * np1 + s] * Wt[stop - s];
   }
+  free(Wt);
   free(rj);
   free(pr);
   double a0 = 0, a1 = 0, a2 = 0;
@@ -854,6 +914,8 @@ int twofold_changes_run(twofold_changes *ch, const twofold_cp_options *o,
   rc = alloc_results(ch);
   if (rc)
     return fail(ch, rc);
+  if (!(ch->opt.kind == TWOFOLD_CP_KINK && ch->opt.grid == 0))
+    pool_free(ch); /* only KINK by Laplace messages uses the kept buffers */
   if (ch->opt.kind == TWOFOLD_CP_KINK && ch->opt.grid > 0) {
     rc = tf_kink_run(ch);
     if (rc)
@@ -872,7 +934,7 @@ int twofold_changes_run(twofold_changes *ch, const twofold_cp_options *o,
     rc = backward(ch);
     if (rc)
       return fail(ch, rc);
-    rc = tf_cp_results(ch);
+    rc = tf_cp_results(ch, 0, NULL);
     if (rc)
       return fail(ch, rc);
   }
@@ -1107,9 +1169,13 @@ int twofold_changes_map_segment(const twofold_changes *ch, size_t k,
 
 int twofold_changes_shrink(twofold_changes *ch) {
   NEED_RUN(ch);
-  free(ch->clogP);
-  free(ch->cb);
-  free(ch->cv);
+  if (!ch->cache_pooled) {
+    free(ch->clogP);
+    free(ch->cb);
+    free(ch->cv);
+  }
+  ch->cache_pooled = 0;
+  pool_free(ch);
   ch->clogP = ch->cb = ch->cv = NULL;
   ch->ncache = ch->capcache = 0;
   tf_kink_free(ch->kink);

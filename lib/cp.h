@@ -250,6 +250,14 @@ struct twofold_changes {
   size_t *stop, *off;
   double *clogP, *cb, *cv;
   size_t ncache, capcache;
+  /* KINK (Laplace) with the direct cache: clogP, cb, cv and the forward
+   * pass's W (pool[3]) point into these buffers, kept from run to run
+   * (capacity poolcap entries each), so a reused object does not take
+   * fresh pages for every series; cache_pooled: clogP etc. are pool[0..2]
+   * and not to be freed on their own. */
+  double *pool[4];
+  size_t poolcap;
+  int cache_pooled;
   /* results */
   double *pch, *gmean, *gsd; /* n each */
   double *kprob;             /* max_changes + 1 */
@@ -269,8 +277,12 @@ int tf_kink_run(struct twofold_changes *ch);
 int tf_kinkl_run(struct twofold_changes *ch);
 /* Results from Q, Fa, stop, off and the segment cache: change
  * probabilities, growth, the count distribution and the MAP
- * segmentation. */
-int tf_cp_results(struct twofold_changes *ch);
+ * segmentation.  have_fa: Fa[0..n-1] is already filled (by a forward pass
+ * over the same candidates); otherwise it is computed from the cache.
+ * cw, if not NULL: per cache entry the weight W(s, e) of the segment given
+ * that a segment ends at e (given y for e = n-1), as the forward pass of
+ * KINK computes it; otherwise W is taken from Fa, the cache and Q. */
+int tf_cp_results(struct twofold_changes *ch, int have_fa, const double *cw);
 void tf_kink_free(struct tf_kink *k);
 int tf_kink_sample(const struct twofold_changes *ch, uint64_t seed,
                    size_t draws, unsigned char *change, double *rate,

@@ -684,6 +684,8 @@ typedef struct kl_work {
   double *qs, *qg;   /* per active start: e^{sv - max sv}, times the hazard */
   double *hz, *hz0;  /* hazard g(L) / S(L-1), L = 0..n (later, first segment) */
   double *tmp;       /* n, for the backward sums                 */
+  double *cw;        /* direct cache only: W(s, e) per entry (below);
+                      * ch->pool[3], not freed here */
   int direct;        /* the cache written in place (see tf_kinkl_run) */
 } kl_work;
 
@@ -712,7 +714,14 @@ static void kl_work_free(kl_work *w) {
  * pruning bound and the mixture weights of the message take one exp per
  * candidate and one log per day.  Should the new-segment weights all
  * underflow against the largest filtered weight, they are taken against
- * their own largest instead (one more exp per candidate, rare). */
+ * their own largest instead (one more exp per candidate, rare).
+ *
+ * With the direct cache the pass also keeps, per candidate, the weight
+ * the results need, W(s, e) = Pr(segment [s, e] | a segment ends at e) =
+ * (new-segment weight) / (their sum) for e < n-1, and for the last day
+ * Pr(the segment covering day n-1 started at s | y) = (filtered weight) /
+ * (their sum): the same ratios tf_cp_results would otherwise take one exp
+ * each for (exp(Fa[s] + log P + log g - Fa[e+1])), here already in hand. */
 static int kl_forward(twofold_changes *ch, kl_work *w, kl_entries *E) {
   const tf_cpdata *d = &ch->d;
   const tf_lenprior *lp = &ch->lp;
@@ -762,8 +771,12 @@ static int kl_forward(twofold_changes *ch, kl_work *w, kl_entries *E) {
       if (sv > ref)
         ref = sv;
     }
-    if (ref == -INFINITY)
+    if (ref == -INFINITY) {
+      if (w->cw)
+        for (size_t i = 0; i < na; i++)
+          w->cw[ch->off[w->act[i]] + (e - w->act[i])] = 0;
       continue; /* nothing possible ends here: Fa[e+1] stays -inf */
+    }
     double tot = 0, sumg = 0;
     for (size_t i = 0; i < na; i++) {
       size_t s = w->act[i], L = e - s + 1;
@@ -798,6 +811,12 @@ static int kl_forward(twofold_changes *ch, kl_work *w, kl_entries *E) {
         }
       }
       ch->Fa[e + 1] = F;
+    }
+    if (w->cw) {
+      const double *src = e + 1 < n ? w->qg : w->qs;
+      double inv = e + 1 < n ? (F > -INFINITY ? 1 / sumg : 0) : 1 / tot;
+      for (size_t i = 0; i < na; i++)
+        w->cw[ch->off[w->act[i]] + (e - w->act[i])] = src[i] * inv;
     }
     /* the message at knot e+1: the mixture over s, collapsed */
     if (e + 1 < n && F > -INFINITY) {
@@ -876,11 +895,22 @@ int tf_kinkl_run(twofold_changes *ch) {
    * series collect e-major entries and reorder them after the pass. */
   if (n <= KL_DIRECT_DAYS) {
     size_t total = n * (n + 1) / 2;
-    ch->clogP = malloc(total * sizeof(double));
-    ch->cb = malloc(total * sizeof(double));
-    ch->cv = malloc(total * sizeof(double));
-    if (!ch->clogP || !ch->cb || !ch->cv)
-      goto out;
+    if (ch->poolcap < total) {
+      for (int i = 0; i < 4; i++) {
+        free(ch->pool[i]);
+        ch->pool[i] = NULL;
+      }
+      ch->poolcap = 0;
+      for (int i = 0; i < 4; i++)
+        if (!(ch->pool[i] = malloc(total * sizeof(double))))
+          goto out;
+      ch->poolcap = total;
+    }
+    ch->clogP = ch->pool[0];
+    ch->cb = ch->pool[1];
+    ch->cv = ch->pool[2];
+    w.cw = ch->pool[3];
+    ch->cache_pooled = 1;
     ch->ncache = ch->capcache = total;
     for (size_t s = 0; s < n; s++)
       ch->off[s] = s * n - (s * (s - 1)) / 2; /* sum of n - j, j < s */
@@ -899,6 +929,7 @@ int tf_kinkl_run(twofold_changes *ch) {
       ch->clogP[ch->off[s]] = -INFINITY;
       ch->cb[ch->off[s]] = 0;
       ch->cv[ch->off[s]] = 0;
+      w.cw[ch->off[s]] = 0;
     }
   } else {
     cnt = calloc(n, sizeof *cnt);
@@ -963,7 +994,8 @@ int tf_kinkl_run(twofold_changes *ch) {
                     n);
     goto out;
   }
-  rc = tf_cp_results(ch);
+  rc = tf_cp_results(ch, 1, w.cw);
+  w.cw = NULL;
   if (rc)
     goto out;
   /* levels of the most probable segments: the count at the middle day
