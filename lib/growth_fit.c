@@ -2131,13 +2131,21 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
   int done = 0;
   if (wuse && isfinite(warm->theta) && warm->theta > 0.0) {
     nbpar np0 = np;
-    if (warm->theta < TF_THETA_CAP) {
+    int tocap = !(warm->theta < TF_THETA_CAP);
+    if (!tocap) {
       /* a joint fit in the flat tail (theta above 1e5) is left to the
-       * alternation, as the single fit's */
+       * alternation, as the single fit's; but first the cap is tried
+       * from the previous window's beta, as after a capped window (the
+       * alternation, run up the flat tail, mostly ends there) */
       double last;
       (void)nb_beta_pre(&w, &np, 3, mu, &last);
       done = nb_joint(&w, &np, o->tol, mu) == 0 && np.theta <= 1e5;
-    } else {
+      if (!done && np.theta > 1e5) {
+        np = np0;
+        tocap = 1;
+      }
+    }
+    if (tocap) {
       np.theta = TF_THETA_CAP;
       /* the pre-steps' last decrement: nb_beta need not guard a first
        * step that small with the log-likelihood */
