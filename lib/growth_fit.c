@@ -1144,6 +1144,15 @@ static int nb_beta_pre(const win_t *w, nbpar *p, int k, double *mu,
   return 0;
 }
 
+/* The last pass of a converged joint Newton: its point (before the last
+ * step) and sums, with NBK_I; the means of that point stay in the
+ * scratch array until something else fills it (ok then cleared). */
+typedef struct {
+  nbpar p;
+  nbsums z;
+  int ok;
+} nblast;
+
 /* Joint Newton on (r, b, tau = log theta) with the observed information
  * of all parameters (the beta block arrow-shaped, then the Schur
  * complement in tau), from a start near the maximum (the previous
@@ -1152,15 +1161,18 @@ static int nb_beta_pre(const win_t *w, nbpar *p, int k, double *mu,
  * may be wild and theta must stay well below the cap; otherwise it
  * returns -1 and the caller alternates from the same start.  It stops
  * once the Newton decrement is below 1e-2 tol, after that last step.
- * mu is scratch of w->n doubles. */
-static int nb_joint(const win_t *w, nbpar *p, double tol, double *mu) {
+ * mu is scratch of w->n doubles; last (if not NULL) gets the last pass
+ * (ok set) when it converges. */
+static int nb_joint(const win_t *w, nbpar *p, double tol, double *mu,
+                    nblast *last) {
   int nc = w->nc;
   const double taumax = log(TF_THETA_CAP) - 2.0;
   double tau = log(p->theta);
   double lam2prev = INFINITY, fprev = 0.0;
   for (int it = 1; it <= 30; it++) {
     nbsums z;
-    nb_kernel(w, p, NBK_BETA | NBK_C | NBK_S | NBK_DS, mu, &z);
+    nb_kernel(w, p, NBK_BETA | NBK_C | NBK_I | NBK_S | NBK_DS, mu, &z);
+    nbpar p0 = *p;
     double th = p->theta;
     double gt = th * z.S;                   /* dl/dtau    */
     double hh = th * z.S + th * th * z.DS;  /* d2l/dtau2  */
@@ -1212,6 +1224,11 @@ static int nb_joint(const win_t *w, nbpar *p, double tol, double *mu) {
     if ((lam2 < 1e-2 * tol && f == 1.0) || quad) {
       p->capped = 0;
       p->iter = it;
+      if (last) {
+        last->p = p0;
+        last->z = z;
+        last->ok = 1;
+      }
       return 0;
     }
   }
@@ -1244,8 +1261,8 @@ static int nb_joint(const win_t *w, nbpar *p, double tol, double *mu) {
  * goes above 1e4 (the flat tail) or tau leaves (tml - 20, tml): the
  * caller then uses cr_theta. */
 static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
-                      double slope0, double tol, double *mu, double *se,
-                      double *slope) {
+                      double slope0, double tol, const nblast *last,
+                      double *mu, double *se, double *slope) {
   int nc = w->nc;
   nbpar q = *p;
   /* a guess more than 0.5 below the ML value: start there, the first
@@ -1257,9 +1274,18 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
   double sl = slope0 < 0.0 && isfinite(slope0) ? slope0 : -1.0;
   int own = 0; /* a secant slope of this window seen */
   q.theta = exp(tau);
+  if (far)
+    last = NULL;
   for (int it = 0; it < 30; it++) {
     nbsums z;
-    nb_kernel(w, &q, NBK_BETA | NBK_C | NBK_I | NBK_S, mu, &z);
+    if (it == 0 && last) {
+      /* the joint fit's last pass, next to the ML fit */
+      q = last->p;
+      z = last->z;
+      tau = log(q.theta);
+    } else {
+      nb_kernel(w, &q, NBK_BETA | NBK_C | NBK_I | NBK_S, mu, &z);
+    }
     double th = q.theta;
     double ab[7], ar, cb[7], cr;
     if (arrow_solve(&z, nc, z.G, z.gr, ab, &ar) != 0 ||
@@ -1285,6 +1311,14 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
       dtau = -g / sl;
     } else if (it == 0) {
       /* at the ML fit, beta = beta_theta: the adjusted score there */
+      if (g >= 0.0 && last) {
+        /* decided at the ML fit itself: pass 0 again, there */
+        last = NULL;
+        q = *p;
+        tau = tml;
+        it = -1;
+        continue;
+      }
       if (g >= 0.0) {
         /* at the cap (flat) or already stationary, as cr_theta */
         *se = nb_se_sums(&z, nc);
@@ -1293,7 +1327,7 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
         *slope = NAN;
         return q.theta;
       }
-      dtau = isfinite(guess) && guess < tml ? guess - tml : -g / sl;
+      dtau = isfinite(guess) && guess < tml ? guess - tau : -g / sl;
     } else {
       /* a secant slope only from differences well above the errors */
       double s2 = (g - gprev) / (tau - tprev);
@@ -1540,14 +1574,14 @@ static void pois_stats(const win_t *w, double r, const double *b,
 static int nb_small(const win_t *w, const nbpar *ml, tf_quant *Q, double df,
                     int maxit, double tol, double *lo, double *hi,
                     double *theta_cr, double guess, double slope0,
-                    double *slope, double *mu) {
+                    double *slope, const nblast *last, double *mu) {
   nbpar p = *ml;
   double se;
   /* warm (rolling): the secant passes of cr_fast; else, or if they fail,
    * the bracketing search */
   double th = tf_isnan(guess) ? NAN
                               : cr_fast(w, &p, log(ml->theta), guess, slope0,
-                                        tol, mu, &se, slope);
+                                        tol, last, mu, &se, slope);
   if (tf_isnan(th)) {
     int bad = 0;
     p = *ml;
@@ -2129,6 +2163,8 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
   /* warm: joint Newton; from a capped start, beta at the cap and the
    * sign of the theta score there; else (or if these fail) alternate */
   int done = 0;
+  nblast jl;
+  jl.ok = 0;
   if (wuse && isfinite(warm->theta) && warm->theta > 0.0) {
     nbpar np0 = np;
     int tocap = !(warm->theta < TF_THETA_CAP);
@@ -2139,13 +2175,14 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
        * alternation, run up the flat tail, mostly ends there) */
       double last;
       (void)nb_beta_pre(&w, &np, 3, mu, &last);
-      done = nb_joint(&w, &np, o->tol, mu) == 0 && np.theta <= 1e5;
+      done = nb_joint(&w, &np, o->tol, mu, &jl) == 0 && np.theta <= 1e5;
       if (!done && np.theta > 1e5) {
         np = np0;
         tocap = 1;
       }
     }
     if (tocap) {
+      jl.ok = 0;
       np.theta = TF_THETA_CAP;
       /* the pre-steps' last decrement: nb_beta need not guard a first
        * step that small with the log-likelihood */
@@ -2163,7 +2200,8 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
            * and theta after the Newton steps of nb_theta, unless it ends
            * in the flat tail (theta above 1e5), where the alternation
            * settles whether the fit goes back to the cap */
-          done = nb_joint(&w, &np, o->tol, mu) == 0 && np.theta <= 1e5;
+          done = nb_joint(&w, &np, o->tol, mu, &jl) == 0 &&
+                 np.theta <= 1e5;
           np.iter += itb + 1;
         }
       }
@@ -2171,6 +2209,8 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
     if (!done)
       np = np0;
   }
+  if (!done)
+    jl.ok = 0;
   if (!done) {
     if (nb_fit(&w, &np, 0, o->max_iter, o->tol, mu) != 0) {
       free(mu);
@@ -2183,7 +2223,7 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
      * them, so that single and rolling fits agree closely */
     if (!np.capped) {
       nbpar pj = np;
-      if (nb_joint(&w, &pj, o->tol, mu) == 0) {
+      if (nb_joint(&w, &pj, o->tol, mu, NULL) == 0) {
         pj.iter += np.iter;
         np = pj;
       }
@@ -2195,6 +2235,8 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
   res->iter = it + np.iter;
   if (np.capped)
     res->flags |= TWOFOLD_FIT_THETA_CAPPED;
+  if (want & (TF_WANT_LOGLIK | TF_WANT_WALD | TF_WANT_PROFILE))
+    jl.ok = 0; /* mu is filled anew below */
   if (want & TF_WANT_LOGLIK) {
     nb_stats(&w, &np, &res->se, &res->pearson, &res->dev, mu);
     res->disp = res->pearson / res->df;
@@ -2240,7 +2282,8 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
     double slope0 = wuse ? warm->cr_slope : NAN;
     if (nb_small(&w, &np, Q, res->df, o->max_iter, o->tol,
                  &res->small[0], &res->small[1], &res->theta_cr, guess,
-                 slope0, &res->cr_slope, mu) != 0) {
+                 slope0, &res->cr_slope, jl.ok ? &jl : NULL,
+                 mu) != 0) {
       free(mu);
       return fail(res, TWOFOLD_ENOCONV,
                   "small-sample interval: adjusted theta search failed%s%.0f",
