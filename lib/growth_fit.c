@@ -1242,7 +1242,10 @@ static int nb_joint(const win_t *w, nbpar *p, double tol, double *mu,
  * dbeta/dtau.  The first pass is at the ML fit (log theta tml), where
  * beta = beta_theta: a non-negative adjusted score there gives the ML
  * theta itself, as cr_theta does; else the step goes to the guess (or
- * by the slope).  A guess more than 0.5 below tml (the ML theta at its
+ * by the slope).  Given last (the joint fit's last pass, one tiny Newton
+ * step before the ML fit, its means still in mu), the first pass is
+ * that one, and a non-negative score there is decided again at the ML
+ * fit itself.  A guess more than 0.5 below tml (the ML theta at its
  * cap, the adjusted one far below) is started at instead, with the ML
  * beta.  The score is moved to first order by the beta step not yet
  * taken (the mixed derivatives), and the size of that move bounds its
