@@ -937,6 +937,33 @@ static int arrow_solve(const nbsums *z, int nc, const double *v, double vr,
   return 0;
 }
 
+/* arrow_solve for two right-hand sides, (v, vr) -> (xb, xr) and (u, ur)
+ * -> (yb, yr), with one reciprocal per diagonal element. */
+static int arrow_solve2(const nbsums *z, int nc, const double *v, double vr,
+                        const double *u, double ur, double *xb, double *xr,
+                        double *yb, double *yr) {
+  double iH[7], sch = z->Hrr, rv = vr, ru = ur;
+  for (int j = 0; j < nc; j++) {
+    if (!(z->H[j] > 0.0))
+      return -1;
+    iH[j] = 1.0 / z->H[j];
+    double a = z->Hr[j] * iH[j];
+    sch -= a * z->Hr[j];
+    rv -= a * v[j];
+    ru -= a * u[j];
+  }
+  if (!(sch > 0.0))
+    return -1;
+  double is = 1.0 / sch;
+  *xr = rv * is;
+  *yr = ru * is;
+  for (int j = 0; j < nc; j++) {
+    xb[j] = (v[j] - z->Hr[j] * *xr) * iH[j];
+    yb[j] = (u[j] - z->Hr[j] * *yr) * iH[j];
+  }
+  return 0;
+}
+
 /* The derivative of the Cox-Reid adjusted profile log-likelihood in tau
  * (cr_grad) at a point where beta = beta_theta, from the sums of a pass
  * there (NBK_BETA | NBK_C | NBK_I | NBK_S) and its means: theta S minus
@@ -1177,8 +1204,7 @@ static int nb_joint(const win_t *w, nbpar *p, double tol, double *mu,
     double gt = th * z.S;                   /* dl/dtau    */
     double hh = th * z.S + th * th * z.DS;  /* d2l/dtau2  */
     double ab[7], ar, cb[7], cr;
-    if (arrow_solve(&z, nc, z.G, z.gr, ab, &ar) != 0 ||
-        arrow_solve(&z, nc, z.C, z.Cr, cb, &cr) != 0)
+    if (arrow_solve2(&z, nc, z.G, z.gr, z.C, z.Cr, ab, &ar, cb, &cr) != 0)
       return -1;
     double ua = ar * z.gr, ca = ar * z.Cr, cc = cr * z.Cr;
     for (int j = 0; j < nc; j++) {
@@ -1291,8 +1317,7 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
     }
     double th = q.theta;
     double ab[7], ar, cb[7], cr;
-    if (arrow_solve(&z, nc, z.G, z.gr, ab, &ar) != 0 ||
-        arrow_solve(&z, nc, z.C, z.Cr, cb, &cr) != 0)
+    if (arrow_solve2(&z, nc, z.G, z.gr, z.C, z.Cr, ab, &ar, cb, &cr) != 0)
       return NAN;
     double lam2 = ar * z.gr;
     for (int j = 0; j < nc; j++)
