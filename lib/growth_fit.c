@@ -1030,16 +1030,29 @@ static double cr_grad(const win_t *w, nbpar *p, double tau, int maxit,
   return g;
 }
 
+/* The last pass of a converged joint Newton: its point (before the last
+ * step) and sums, with NBK_I; the means of that point stay in the
+ * scratch array until something else fills it (ok then cleared). */
+typedef struct {
+  nbpar p;
+  nbsums z;
+  int ok;
+} nblast;
+
+static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
+                      double slope0, double tol, const nblast *last,
+                      double *mu, double *se, double *slope);
+
 /* The Cox-Reid adjusted theta: the root of cr_grad below the ML value,
  * bracketed by stepping down (or, given a guess of log theta, first
  * tried at guess +- 0.02), then refined by the Illinois variant of
- * false position.  p (in: the ML fit) gets beta at the adjusted theta;
+ * false position (given a guess, first by cr_fast from the bracket).  p (in: the ML fit) gets beta at the adjusted theta;
  * *slope the slope of cr_grad between the last two points (the next
  * window's first guess of it); mu is scratch of w->n doubles. */
 static double cr_theta(const win_t *w, nbpar *p, int maxit, double tol,
                        int *fail, double guess, double *mu, double *slope) {
   *slope = NAN;
-  double b = log(p->theta);
+  double b = log(p->theta), tml = b;
   double gb = cr_grad(w, p, b, maxit, tol, fail, mu);
   if (*fail)
     return NAN;
@@ -1084,6 +1097,23 @@ static double cr_theta(const win_t *w, nbpar *p, int maxit, double tol,
     step *= 2.0;
   }
   /* g(a) > 0 > g(b), a < b */
+  if (isfinite(guess)) {
+    /* rolling (a guess given): the secant passes of cr_fast from a, the
+     * bracket's end of positive score (beta_theta there); their result
+     * is kept if it lies inside the bracket, else false position goes
+     * on.  (From the false-position point they would mostly start in
+     * the flat tail, where g(b) is nearly 0, and give up.) */
+    double se, sl;
+    if (a < tml - 0.5) {
+      nbpar pf = pa;
+      double th = cr_fast(w, &pf, tml, a, NAN, tol, NULL, mu, &se, &sl);
+      if (th > exp(a) && th < exp(b)) {
+        *p = pf;
+        *slope = sl;
+        return th;
+      }
+    }
+  }
   int side = 0;
   nbpar pc = pa;
   double xl = a, gl = ga; /* the last point, for *slope */
@@ -1170,15 +1200,6 @@ static int nb_beta_pre(const win_t *w, nbpar *p, int k, double *mu,
   }
   return 0;
 }
-
-/* The last pass of a converged joint Newton: its point (before the last
- * step) and sums, with NBK_I; the means of that point stay in the
- * scratch array until something else fills it (ok then cleared). */
-typedef struct {
-  nbpar p;
-  nbsums z;
-  int ok;
-} nblast;
 
 /* Joint Newton on (r, b, tau = log theta) with the observed information
  * of all parameters (the beta block arrow-shaped, then the Schur
