@@ -687,14 +687,15 @@ static int nb_beta(const win_t *w, nbpar *p, int fixr, int maxit, double tol,
 }
 
 /* Newton on tau = log theta at fixed mu (MASS theta.ml score and
- * information).  Returns the change in tau, NAN on failure; *dec gets the
- * Newton decrement in tau at the start (log-likelihood units). */
+ * information), with steps of flat in tau where the log-likelihood is
+ * not concave in tau, and at most maxit steps.  Returns the change in tau, NAN on failure; *dec
+ * gets the Newton decrement in tau at the start (log-likelihood units). */
 static double nb_theta(const win_t *w, nbpar *p, const double *mu,
-                       double *dec) {
+                       double flat, int maxit, double *dec) {
   double tau0 = log(p->theta), tau = tau0;
   const double taucap = log(TF_THETA_CAP);
   p->capped = 0;
-  for (int it = 0; it < 60; it++) {
+  for (int it = 0; it < maxit; it++) {
     double th = exp(tau);
     nbth c;
     nbth_init(&c, th, 1);
@@ -714,7 +715,7 @@ static double nb_theta(const win_t *w, nbpar *p, const double *mu,
     if (hh < 0.0)
       step = -g / hh;
     else
-      step = g > 0.0 ? 1.0 : -1.0;
+      step = g > 0.0 ? flat : -flat;
     if (it == 0)
       *dec = hh < 0.0 ? -g * g / hh : INFINITY;
     if (tau >= taucap && g > 0.0) {
@@ -770,7 +771,7 @@ static int nb_fit(const win_t *w, nbpar *p, int fixr, int maxit, double tol,
     total += it;
     nb_mu(w, p, mu);
     double dec = INFINITY;
-    double dt = nb_theta(w, p, mu, &dec);
+    double dt = nb_theta(w, p, mu, 1.0, 60, &dec);
     if (tf_isnan(dt))
       return -1;
     /* stationary in beta (no Newton step needed beyond the first) and in
@@ -2241,7 +2242,9 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
       if (itb >= 0) {
         double dec = INFINITY;
         nb_mu(&w, &np, mu);
-        double dt = nb_theta(&w, &np, mu, &dec);
+        /* steps of 3 in the flat tail, and few: from the cap, the joint
+         * Newton polishes whatever start nb_theta gives */
+        double dt = nb_theta(&w, &np, mu, 3.0, 6, &dec);
         done = np.capped && dt == 0.0;
         np.iter = itb + 1;
         if (!done && !np.capped && isfinite(dt)) {
