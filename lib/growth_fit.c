@@ -526,7 +526,9 @@ NB_INLINE void nb_kernel(const win_t *w, const nbpar *p, unsigned f,
   int comp = th >= 1e3;
   double Sp = 0.0, Dp = 0.0;
   for (int j = 0; j < nc; j++) {
-    size_t t0 = nc == 7 ? (size_t)((j - w->wd0 + 7) % 7) : 0;
+    /* the first day of class j (w->wd0 in 0..6: no division) */
+    size_t t0 = nc == 7 ? (size_t)(j >= w->wd0 ? j - w->wd0 : j - w->wd0 + 7)
+                        : 0;
     double G = 0.0, H = 0.0, Hr = 0.0, C = 0.0, I = 0.0, Ir = 0.0;
     double m = 0.0;
     unsigned k = 0;
@@ -986,7 +988,9 @@ static double cr_score(const win_t *w, double th, const nbsums *z,
   double isch = 1.0 / schI, dld = 0.0;
   size_t step = nc == 7 ? 7 : 1;
   for (int j = 0; j < nc; j++) {
-    size_t t0 = nc == 7 ? (size_t)((j - w->wd0 + 7) % 7) : 0;
+    /* the first day of class j (w->wd0 in 0..6: no division) */
+    size_t t0 = nc == 7 ? (size_t)(j >= w->wd0 ? j - w->wd0 : j - w->wd0 + 7)
+                        : 0;
     for (size_t t = t0; t < w->n; t += step) {
       if (tf_isnan(w->y[t]))
         continue;
