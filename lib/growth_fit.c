@@ -508,9 +508,8 @@ typedef struct {
 enum { NBK_BETA = 1, NBK_C = 2, NBK_I = 4, NBK_S = 8, NBK_DS = 16,
        NBK_LL = 32 };
 
-NB_INLINE void nb_kernel(const win_t *w, const nbpar *p, unsigned f,
-                         double *mu, nbsums *z) {
-  int nc = w->nc;
+NB_INLINE void nb_kernel_n(const win_t *w, const nbpar *p, unsigned f,
+                           double *mu, nbsums *z, int nc, size_t n) {
   double th = p->theta;
   nbth c;
   if (f & NBK_S)
@@ -532,7 +531,7 @@ NB_INLINE void nb_kernel(const win_t *w, const nbpar *p, unsigned f,
     double G = 0.0, H = 0.0, Hr = 0.0, C = 0.0, I = 0.0, Ir = 0.0;
     double m = 0.0;
     unsigned k = 0;
-    for (size_t t = t0; t < w->n; t += step, k++) {
+    for (size_t t = t0; t < n; t += step, k++) {
       double tt = (double)t;
       if (w->off || (k & 7u) == 0)
         m = exp(offv(w, t) + p->b[j] + p->r * tt);
@@ -594,6 +593,17 @@ NB_INLINE void nb_kernel(const win_t *w, const nbpar *p, unsigned f,
   z->S = comp ? ks_val(&S) : Sp;
   z->DS = comp ? ks_val(&D) : Dp;
   z->ll = ks_val(&L);
+}
+
+/* nb_kernel_n with the window's classes and length; 21-day windows with
+ * weekday effects (the rolling default) with both known at compile
+ * time, so that the three days of each class are unrolled. */
+NB_INLINE void nb_kernel(const win_t *w, const nbpar *p, unsigned f,
+                         double *mu, nbsums *z) {
+  if (w->nc == 7 && w->n == 21)
+    nb_kernel_n(w, p, f, mu, z, 7, 21);
+  else
+    nb_kernel_n(w, p, f, mu, z, w->nc, w->n);
 }
 
 /* The expected-information SE of r from the sums (NBK_I): the inverse
