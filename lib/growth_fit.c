@@ -765,6 +765,37 @@ static double nb_theta(const win_t *w, nbpar *p, const double *mu,
   return tau - tau0;
 }
 
+/* Whether the theta score at the cap (means mu, theta = TF_THETA_CAP) is
+ * clearly positive, from its series in u = 1/theta: a day's term
+ *     sum_{k<y} 1/(theta + k) - log(1 + m/theta) + (m - y)/(m + theta)
+ * is u^2 (c2 + c3 u + c4 u^2 + O(u^3)) with (expanding each part in u)
+ *     c2 = (y - (y - m)^2)/2,
+ *     c3 = sum k^2 - m^3/3 + (m - y) m^2,
+ *     c4 = -sum k^3 + m^4/4 - (m - y) m^3,
+ * sums over k < y (Faulhaber's formulas): no logarithm or psi per day.
+ * Clearly: the sum above 1e-6 times the sum of |c2|, far above the
+ * truncation (relative (y/theta)^3) and the rounding of either method;
+ * otherwise nb_theta decides. */
+static int nb_cap_up(const win_t *w, const double *mu) {
+  const double u = 1.0 / TF_THETA_CAP;
+  ksum S = {0, 0};
+  double sc = 0.0;
+  for (size_t t = 0; t < w->n; t++) {
+    double y = w->y[t];
+    if (tf_isnan(y))
+      continue;
+    double m = mu[t], d = y - m, a = 0.5 * y * (y - 1.0);
+    double k2 = y * (y - 1.0) * (2.0 * y - 1.0) / 6.0;
+    double c2 = 0.5 * (y - d * d);
+    double c3 = k2 - m * m * m / 3.0 - d * m * m;
+    double c4 = -a * a + 0.25 * m * m * m * m + d * m * m * m;
+    ks_add(&S, c2 + u * (c3 + u * c4));
+    sc += fabs(c2);
+  }
+  double v = ks_val(&S);
+  return isfinite(v) && v > 1e-6 * sc;
+}
+
 /* Fill mu[t] for the present days t (the kernel without sums). */
 static void nb_mu(const win_t *w, const nbpar *p, double *mu) {
   nbsums z;
@@ -2258,7 +2289,14 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
         nb_mu(&w, &np, mu);
         /* steps of 3 in the flat tail, and few: from the cap, the joint
          * Newton polishes whatever start nb_theta gives */
-        double dt = nb_theta(&w, &np, mu, 3.0, 6, &dec);
+        double dt = 0.0;
+        if (nb_cap_up(&w, mu)) {
+          /* what nb_theta gives when the score at the cap is positive */
+          np.theta = exp(log(TF_THETA_CAP));
+          np.capped = 1;
+        } else {
+          dt = nb_theta(&w, &np, mu, 3.0, 6, &dec);
+        }
         done = np.capped && dt == 0.0;
         np.iter = itb + 1;
         if (!done && !np.capped && isfinite(dt)) {
