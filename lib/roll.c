@@ -38,10 +38,9 @@
  * non-negative there), and steps to the previous window's offset of the
  * adjusted theta from the ML one, or starts at that guess when it lies
  * far below, with the previous secant slope; its stopping rules ask for
- * small steps
- * measured against the error of the adjusted score.  When it falls back
- * to the bracketing search, the bracket found is refined by the same
- * secant passes before false position.
+ * small steps measured against the error of the adjusted score.  When
+ * it falls back to the bracketing search, the bracket found is refined
+ * by the same secant passes before false position.
  */
 #include "growth_internal.h"
 
