@@ -29,12 +29,18 @@
  * Every window starts from the previous day's estimate, and the interval
  * quantiles are computed once per call.  NB2 (growth_fit.c): beta is
  * first brought to the new days by cheap Newton passes at the previous
- * theta, then the joint Newton (or, theta at its cap, beta at the cap)
- * runs; the Cox-Reid search for the small-sample interval starts at the
- * ML fit (ending there at once when the adjusted score is non-negative)
- * and steps to the previous window's offset of the adjusted theta from
- * the ML one, with the previous secant slope; its stopping rules ask for
- * small steps measured against the error of the adjusted score.
+ * theta, then the joint Newton (or, theta at its cap, beta at the cap,
+ * where a series of the theta score in 1/theta settles most windows
+ * without a logarithm per day) runs; a joint fit that runs into the flat
+ * tail tries the cap before the alternation.  The Cox-Reid search for
+ * the small-sample interval starts next to the ML fit, at the joint
+ * fit's last pass (ending at the ML fit when the adjusted score is
+ * non-negative there), and steps to the previous window's offset of the
+ * adjusted theta from the ML one, or starts at that guess when it lies
+ * far below, with the previous secant slope; its stopping rules ask for
+ * small steps measured against the error of the adjusted score.  When
+ * it falls back to the bracketing search, the bracket found is refined
+ * by the same secant passes before false position.
  */
 #include "growth_internal.h"
 
