@@ -421,34 +421,6 @@ NB_INLINE void ks_add2(ksum *k, double v) {
   k->s = t;
 }
 
-/* psi(x) - log x and psi'(x) for x >= 10: the asymptotic series of
- * tf_digamma and tf_trigamma (Abramowitz & Stegun 1964, 6.3.18 and
- * 6.4.12, to the x^-14 and x^-15 terms; the next terms are below 1e-16
- * at x = 10) without the shift. */
-static inline double psi_mlog(double x) {
-  double i = 1.0 / x, i2 = i * i;
-  double ser =
-      i2 * (1.0 / 12.0 -
-            i2 * (1.0 / 120.0 -
-                  i2 * (1.0 / 252.0 -
-                        i2 * (1.0 / 240.0 -
-                              i2 * (1.0 / 132.0 -
-                                    i2 * (691.0 / 32760.0 - i2 / 12.0))))));
-  return -0.5 * i - ser;
-}
-
-static inline double tri_ser(double x) {
-  double i = 1.0 / x, i2 = i * i;
-  return i * (1.0 +
-              i * (0.5 +
-                   i * (1.0 / 6.0 -
-                        i2 * (1.0 / 30.0 -
-                              i2 * (1.0 / 42.0 -
-                                    i2 * (1.0 / 30.0 -
-                                          i2 * (5.0 / 66.0 -
-                                                i2 * (691.0 / 2730.0 -
-                                                      i2 * 7.0 / 6.0))))))));
-}
 
 /* What one theta needs for the days' theta scores: psi(theta),
  * psi'(theta) (if ds) and log theta - psi(theta). */
@@ -460,7 +432,7 @@ static void nbth_init(nbth *c, double th, int ds) {
   c->th = th;
   c->ps0 = tf_digamma(th);
   c->ps1 = ds ? tf_trigamma(th) : 0.0;
-  c->cth = th >= 10.0 ? -psi_mlog(th) : log(th) - c->ps0;
+  c->cth = th >= 10.0 ? -tf_psi_mlog(th) : log(th) - c->ps0;
 }
 
 /* A day's term of the theta score dl/dtheta,
@@ -478,10 +450,10 @@ NB_INLINE double nb_sday(const nbth *c, double y, double m, double id,
   if (th < 1e3 && th + y >= 10.0) {
     double x = th + y;
     if (ds)
-      *ds = tri_ser(x) - c->ps1 + m * id / th - (m - y) * id * id;
+      *ds = tf_tri_ser(x) - c->ps1 + m * id / th - (m - y) * id * id;
     /* log of the ratio (theta + y)/(theta + m): its absolute error, about
      * 1e-16, is what log1p would leave in the sum */
-    return c->cth + log(x * id) + psi_mlog(x) + (m - y) * id;
+    return c->cth + log(x * id) + tf_psi_mlog(x) + (m - y) * id;
   }
   double d1, d2 = 0.0;
   psidiff(th, y, c->ps0, c->ps1, &d1, ds ? &d2 : NULL);

@@ -6,6 +6,7 @@
 
 #include "internal.h"
 
+#include <math.h>
 #include <stddef.h>
 
 /* Cap on the NB2 shape theta: above it the fit is reported as Poisson-like
@@ -103,7 +104,36 @@ int tf_interval_pick(const tf_gres *res, int kind, int opt_kind, double *lo,
 void tf_geom(double b, double L, double *logE0, double *m, double *v);
 
 
-/* Digamma and trigamma, x > 0 (lib/growth_fit.c). */
+/* psi(x) - log x and psi'(x) for x >= 10: the asymptotic series of
+ * tf_digamma and tf_trigamma (Abramowitz & Stegun 1964, 6.3.18 and
+ * 6.4.12, to the x^-14 and x^-15 terms; the next terms are below 1e-16
+ * at x = 10) without the shift. */
+static inline double tf_psi_mlog(double x) {
+  double i = 1.0 / x, i2 = i * i;
+  double ser =
+      i2 * (1.0 / 12.0 -
+            i2 * (1.0 / 120.0 -
+                  i2 * (1.0 / 252.0 -
+                        i2 * (1.0 / 240.0 -
+                              i2 * (1.0 / 132.0 -
+                                    i2 * (691.0 / 32760.0 - i2 / 12.0))))));
+  return -0.5 * i - ser;
+}
+
+static inline double tf_tri_ser(double x) {
+  double i = 1.0 / x, i2 = i * i;
+  return i * (1.0 +
+              i * (0.5 +
+                   i * (1.0 / 6.0 -
+                        i2 * (1.0 / 30.0 -
+                              i2 * (1.0 / 42.0 -
+                                    i2 * (1.0 / 30.0 -
+                                          i2 * (5.0 / 66.0 -
+                                                i2 * (691.0 / 2730.0 -
+                                                      i2 * 7.0 / 6.0))))))));
+}
+
+/* Digamma and trigamma, x > 0 (lib/growth_psi.c). */
 double tf_digamma(double x);
 double tf_trigamma(double x);
 

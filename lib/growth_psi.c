@@ -18,15 +18,7 @@ double tf_digamma(double x) {
     acc -= 1.0 / x;
     x += 1.0;
   }
-  double i = 1.0 / x, i2 = i * i;
-  double ser =
-      i2 * (1.0 / 12.0 -
-            i2 * (1.0 / 120.0 -
-                  i2 * (1.0 / 252.0 -
-                        i2 * (1.0 / 240.0 -
-                              i2 * (1.0 / 132.0 -
-                                    i2 * (691.0 / 32760.0 - i2 / 12.0))))));
-  return acc + log(x) - 0.5 * i - ser;
+  return acc + log(x) + tf_psi_mlog(x);
 }
 
 double tf_trigamma(double x) {
@@ -35,16 +27,5 @@ double tf_trigamma(double x) {
     acc += 1.0 / (x * x);
     x += 1.0;
   }
-  double i = 1.0 / x, i2 = i * i;
-  double ser =
-      i * (1.0 +
-           i * (0.5 +
-                i * (1.0 / 6.0 -
-                     i2 * (1.0 / 30.0 -
-                           i2 * (1.0 / 42.0 -
-                                 i2 * (1.0 / 30.0 -
-                                       i2 * (5.0 / 66.0 -
-                                             i2 * (691.0 / 2730.0 -
-                                                   i2 * 7.0 / 6.0))))))));
-  return acc + ser;
+  return acc + tf_tri_ser(x);
 }
