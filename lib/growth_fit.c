@@ -1760,6 +1760,29 @@ typedef struct {
   double lE, m, V, K3; /* log sum, mean, variance, third central moment */
 } gmom;
 
+/* The moments of one group from its power sums S_j = sum p_k (k' - c)^j,
+ * p_k = e^{-|x| k'}, k' counted from the heavy end (k' = L-1-k when
+ * x > 0): mean, variance and third central moment of k under e^{x k},
+ * and (if need_log) log sum e^{x k}. */
+static void gmom_set(gmom *o, double S0, double S1, double S2, double S3,
+                     double c, int L, double x, int need_log) {
+  double i0 = 1.0 / S0;
+  double mc = S1 * i0; /* mean of k' - c */
+  double v = S2 * i0 - mc * mc;
+  double k3 = S3 * i0 - 3.0 * mc * S2 * i0 + 2.0 * mc * mc * mc;
+  double mk = c + mc; /* mean of k' */
+  o->V = v > 0.0 ? v : 0.0;
+  if (x > 0.0) {
+    o->m = (double)(L - 1) - mk;
+    o->K3 = -k3;
+    o->lE = need_log ? x * (double)(L - 1) + log(S0) : NAN;
+  } else {
+    o->m = mk;
+    o->K3 = k3;
+    o->lE = need_log ? log(S0) : NAN;
+  }
+}
+
 /* The moments of k under e^{x k}, k < La and k < La + 1 (if g->nb); lE
  * only when need_log. */
 static void gp_moments(const gprof *g, double r, int need_log, gmom *A,
@@ -1802,22 +1825,7 @@ static void gp_moments(const gprof *g, double r, int need_log, gmom *A,
       S2 += pu2;
       S3 += pu2 * u;
     }
-    double i0 = 1.0 / S0;
-    double mc = S1 * i0; /* mean of k' - c */
-    double v = S2 * i0 - mc * mc;
-    double k3 = S3 * i0 - 3.0 * mc * S2 * i0 + 2.0 * mc * mc * mc;
-    double mk = c + mc; /* mean of k' */
-    gmom *o = G[gi];
-    o->V = v > 0.0 ? v : 0.0;
-    if (x > 0.0) {
-      o->m = (double)(L - 1) - mk;
-      o->K3 = -k3;
-      o->lE = need_log ? x * (double)(L - 1) + log(S0) : NAN;
-    } else {
-      o->m = mk;
-      o->K3 = k3;
-      o->lE = need_log ? log(S0) : NAN;
-    }
+    gmom_set(G[gi], S0, S1, S2, S3, c, L, x, need_log);
   }
 }
 
@@ -1841,22 +1849,7 @@ static void gp_moments_gen(const gprof *g, double r, int need_log, gmom *M) {
       }
       p *= q;
     }
-    double i0 = 1.0 / S0;
-    double mc = S1 * i0;
-    double v = S2 * i0 - mc * mc;
-    double k3 = S3 * i0 - 3.0 * mc * S2 * i0 + 2.0 * mc * mc * mc;
-    double mk = c + mc;
-    gmom *o = &M[i];
-    o->V = v > 0.0 ? v : 0.0;
-    if (x > 0.0) {
-      o->m = (double)(L - 1) - mk;
-      o->K3 = -k3;
-      o->lE = need_log ? x * (double)(L - 1) + log(S0) : NAN;
-    } else {
-      o->m = mk;
-      o->K3 = k3;
-      o->lE = need_log ? log(S0) : NAN;
-    }
+    gmom_set(&M[i], S0, S1, S2, S3, c, L, x, need_log);
   }
 }
 
