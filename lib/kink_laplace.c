@@ -687,6 +687,7 @@ typedef struct kl_work {
   double *cw;        /* direct cache only: W(s, e) per entry (below);
                       * ch->pool[3], not freed here */
   int direct;        /* the cache written in place (see tf_kinkl_run) */
+  double lz;         /* log evidence from the last day's filtered weights */
 } kl_work;
 
 static void kl_work_free(kl_work *w) {
@@ -787,6 +788,8 @@ static int kl_forward(twofold_changes *ch, kl_work *w, kl_entries *E) {
       tot += q;
       sumg += g;
     }
+    if (e + 1 == n)
+      w->lz = ref + log(tot);
     double F = -INFINITY;
     if (e + 1 < n) {
       if (sumg >= 1e-250) {
@@ -916,6 +919,7 @@ int tf_kinkl_run(twofold_changes *ch) {
       ch->off[s] = s * n - (s * (s - 1)) / 2; /* sum of n - j, j < s */
     w.direct = 1;
   }
+  w.lz = -INFINITY;
   rc = kl_forward(ch, &w, &E);
   if (rc)
     goto out;
@@ -960,10 +964,34 @@ int tf_kinkl_run(twofold_changes *ch) {
       ch->cv[k] = E.v[i];
     }
   }
-  /* backward over the cache (METHODS A2): the terms against their
-   * largest, one exp each */
   ch->Q[n] = 0;
-  for (size_t t = n; t-- > 0;) {
+  if (w.direct) {
+    /* backward in probabilities, with the weights W(s, e) the forward pass
+     * kept: P(change on day s | y) = sum_e W(s, e) P(a segment ends at e |
+     * y), the latter P(change on day e+1 | y), or 1 for the last day (the
+     * smoothing identity of forward filtering; Fearnhead 2006, section 3).
+     * Q[t] = log P(change on day t | y) + log p(y) - Fa[t] then holds the
+     * backward sums of METHODS A2 without one exp per candidate. */
+    double *pr = w.tmp;
+    for (size_t t = n; t-- > 1;) {
+      const double *wt = w.cw + ch->off[t];
+      size_t ne = ch->stop[t] - t + 1;
+      double acc = 0;
+      for (size_t j = 0; j < ne; j++) {
+        size_t e = t + j;
+        acc += wt[j] * (e + 1 < n ? pr[e + 1] : 1.0);
+      }
+      pr[t] = acc;
+    }
+    ch->Q[0] = w.lz;
+    for (size_t t = 1; t < n; t++)
+      ch->Q[t] = ch->Fa[t] > -INFINITY && pr[t] > 0
+                     ? log(pr[t]) + w.lz - ch->Fa[t]
+                     : -INFINITY;
+  }
+  /* otherwise backward over the cache (METHODS A2): the terms against
+   * their largest, one exp each */
+  for (size_t t = n; !w.direct && t-- > 0;) {
     double mx = -INFINITY, *tm = w.tmp;
     const double *cl = ch->clogP + ch->off[t];
     size_t ne = ch->stop[t] - t + 1;
