@@ -385,9 +385,11 @@ int twofold_changes_new(twofold_changes **out) {
   return 0;
 }
 
+/* Everything a run made, except the buffers a reused object keeps: the
+ * segment-length tables (ch->lp, remade only when the length or the
+ * prior changes) and the KINK pool (pool_free). */
 static void changes_clear(twofold_changes *ch) {
   tf_cp_data_free(&ch->d);
-  tf_lenprior_free(&ch->lp);
   free(ch->Q);
   free(ch->Fa);
   free(ch->stop);
@@ -435,6 +437,7 @@ void twofold_changes_free(twofold_changes *ch) {
     return;
   changes_clear(ch);
   pool_free(ch);
+  tf_lenprior_free(&ch->lp);
   free(ch);
 }
 
@@ -907,10 +910,16 @@ int twofold_changes_run(twofold_changes *ch, const twofold_cp_options *o,
   ch->ncleaned = ncl;
   if (rc)
     return fail(ch, rc);
-  rc = tf_lenprior_init(&ch->lp, n, ch->opt.min_seg, ch->opt.shape,
-                        ch->opt.mean_len);
-  if (rc)
-    return fail(ch, rc);
+  /* the length tables of the last run serve again (a daily job over many
+   * regions of the same length) */
+  if (!(ch->lp.lg && ch->lp.n == n && ch->lp.min_seg == ch->opt.min_seg &&
+        ch->lp.shape == ch->opt.shape && ch->lp.mean == ch->opt.mean_len)) {
+    tf_lenprior_free(&ch->lp);
+    rc = tf_lenprior_init(&ch->lp, n, ch->opt.min_seg, ch->opt.shape,
+                          ch->opt.mean_len);
+    if (rc)
+      return fail(ch, rc);
+  }
   rc = alloc_results(ch);
   if (rc)
     return fail(ch, rc);

@@ -8,6 +8,7 @@
 #include <math.h>
 #include <stddef.h>
 #include <stdint.h>
+#include <string.h>
 
 /* The options object. */
 struct twofold_cp_options {
@@ -196,6 +197,7 @@ typedef struct tf_lenprior {
   size_t n;
   double *lg, *lS, *lg0, *lS0;
   double mean;
+  int min_seg, shape; /* the parameters the tables were made for */
 } tf_lenprior;
 
 int tf_lenprior_init(tf_lenprior *lp, size_t n, int min_seg, int shape,
@@ -208,6 +210,21 @@ static inline double tf_lg(const tf_lenprior *lp, size_t s, size_t len) {
 /* log P(length >= len). */
 static inline double tf_lsurv(const tf_lenprior *lp, size_t s, size_t len) {
   return s == 0 ? lp->lS0[len - 1] : lp->lS[len - 1];
+}
+
+/* Two doubles in one register (GCC and Clang vector extensions), for
+ * sums whose terms come in independent pairs: each lane does the same
+ * operations in the same order as scalar code would, so the results are
+ * the same to the bit (x86-64 adds and multiplies pairs with SSE2, which
+ * every such processor has; no fused multiply-add is formed). */
+typedef double tf_v2d __attribute__((vector_size(2 * sizeof(double))));
+static inline tf_v2d tf_v2d_load(const double *p) {
+  tf_v2d v;
+  memcpy(&v, p, sizeof v);
+  return v;
+}
+static inline void tf_v2d_store(double *p, tf_v2d v) {
+  memcpy(p, &v, sizeof v);
 }
 
 static inline double tf_lse(double a, double b) {

@@ -167,23 +167,17 @@ static void ks_add(const tf_cpdata *d, tf_ksums *ks, size_t s, size_t t,
   double t0 = d->wcls[cl] * ks->z, u2 = u * u, u4 = u2 * u2;
   double t1 = t0 * u, t2 = t0 * u2, t3 = t1 * u2;
   double *A = ks->A;
-  int k = 0;
-  for (; k + 4 <= TF_KS_TERMS + 3; k += 4) {
-    A[k] += t0;
-    A[k + 1] += t1;
-    A[k + 2] += t2;
-    A[k + 3] += t3;
-    t0 *= u4;
-    t1 *= u4;
-    t2 *= u4;
-    t3 *= u4;
+  /* the chains in pairs: (t0, t1) and (t2, t3) */
+  _Static_assert(TF_KS_TERMS + 3 == 19, "ks_add adds 19 powers");
+  tf_v2d p01 = {t0, t1}, p23 = {t2, t3}, q = {u4, u4};
+  for (int k = 0; k < 16; k += 4) {
+    tf_v2d_store(A + k, tf_v2d_load(A + k) + p01);
+    tf_v2d_store(A + k + 2, tf_v2d_load(A + k + 2) + p23);
+    p01 *= q;
+    p23 *= q;
   }
-  if (k < TF_KS_TERMS + 3)
-    A[k++] += t0;
-  if (k < TF_KS_TERMS + 3)
-    A[k++] += t1;
-  if (k < TF_KS_TERMS + 3)
-    A[k++] += t2;
+  tf_v2d_store(A + 16, tf_v2d_load(A + 16) + p01);
+  A[18] += p23[0];
 }
 
 /* The sums of the days s..e at bref, from scratch: in blocks of 64 days,
@@ -340,31 +334,29 @@ static inline int ks_sums(kl_ctx *x, double b, double *E) {
    * with its own three sums */
   const double *A = ks->A;
   double d2 = dx * dx, ce = 1, co = dx;
-  double e0 = A[0], e1 = A[1], e2 = A[2], e3 = A[3];
-  double o0 = 0, o1 = 0, o2 = 0, o3 = 0;
+  /* (E0, E1) and (E2, E3) in pairs */
+  tf_v2d e01 = tf_v2d_load(A), e23 = tf_v2d_load(A + 2);
+  tf_v2d o01 = {0, 0}, o23 = {0, 0};
   int k = 1;
   for (; k + 1 < n; k += 2) {
-    o0 += co * A[k];
-    o1 += co * A[k + 1];
-    o2 += co * A[k + 2];
-    o3 += co * A[k + 3];
+    tf_v2d vo = {co, co};
+    o01 += vo * tf_v2d_load(A + k);
+    o23 += vo * tf_v2d_load(A + k + 2);
     ce *= d2 * kl_inv2[k + 1];
     co *= d2 * kl_inv2[k + 2];
-    e0 += ce * A[k + 1];
-    e1 += ce * A[k + 2];
-    e2 += ce * A[k + 3];
-    e3 += ce * A[k + 4];
+    tf_v2d ve = {ce, ce};
+    e01 += ve * tf_v2d_load(A + k + 1);
+    e23 += ve * tf_v2d_load(A + k + 3);
   }
   if (k < n) {
-    o0 += co * A[k];
-    o1 += co * A[k + 1];
-    o2 += co * A[k + 2];
-    o3 += co * A[k + 3];
+    tf_v2d vo = {co, co};
+    o01 += vo * tf_v2d_load(A + k);
+    o23 += vo * tf_v2d_load(A + k + 2);
   }
-  E[0] = e0 + o0;
-  E[1] = e1 + o1;
-  E[2] = e2 + o2;
-  E[3] = e3 + o3;
+  e01 += o01;
+  e23 += o23;
+  tf_v2d_store(E, e01);
+  tf_v2d_store(E + 2, e23);
   return E[0] > 0 && isfinite(E[2]);
 }
 

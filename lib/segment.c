@@ -962,6 +962,8 @@ int tf_lenprior_init(tf_lenprior *lp, size_t n, int m, int k, double mean) {
   memset(lp, 0, sizeof *lp);
   lp->n = n;
   lp->mean = mean;
+  lp->min_seg = m;
+  lp->shape = k;
   double q = k / (mean - m + k), lq = log(q), l1q = log1p(-q);
   size_t far = n + (size_t)m + (size_t)ceil(60.0 * (k + 1) / q) + 10;
   lp->lg = malloc((n + 1) * sizeof(double));
