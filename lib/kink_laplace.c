@@ -180,10 +180,10 @@ static void ks_add(const tf_cpdata *d, tf_ksums *ks, size_t s, size_t t,
   A[18] += p23[0];
 }
 
-/* The sums of the days s..e at bref, from scratch: in blocks of 64 days,
- * the weights w_t e^{bref u} first (e^{bref u} as ks_add carries it),
- * then the powers k = 0..8 and 9..18 in two passes whose sums stay in
- * registers. */
+/* The sums of the days s..e at bref, from scratch: the weights w_t
+ * e^{bref u} first, in blocks of 64 days (e^{bref u} as ks_add carries
+ * it), then each day's powers formed as ks_add forms them, summed in
+ * registers by pairs and added to A once per block. */
 static void ks_build(const tf_cpdata *d, tf_ksums *ks, size_t s, size_t e,
                      double bref) {
   _Static_assert(TF_KS_TERMS + 3 == 19, "ks_build sums 19 powers");
@@ -192,6 +192,7 @@ static void ks_build(const tf_cpdata *d, tf_ksums *ks, size_t s, size_t e,
   ks->eb = exp(bref);
   double z = 1, c[64], uu[64];
   int cl = tf_cls(d, s);
+  double *A = ks->A;
   for (size_t t0 = s; t0 <= e; t0 += 64) {
     size_t m = e - t0 + 1 < 64 ? e - t0 + 1 : 64;
     for (size_t i = 0; i < m; i++) {
@@ -205,71 +206,41 @@ static void ks_build(const tf_cpdata *d, tf_ksums *ks, size_t s, size_t e,
       ks->cls = cl;
       cl = cl == 6 ? 0 : cl + 1;
     }
-    double s0 = 0, s1 = 0, s2 = 0, s3 = 0, s4 = 0, s5 = 0, s6 = 0, s7 = 0,
-           s8 = 0;
-    for (size_t i = 0; i < m; i++) {
-      double u = uu[i], p = c[i];
-      s0 += p;
-      p *= u;
-      s1 += p;
-      p *= u;
-      s2 += p;
-      p *= u;
-      s3 += p;
-      p *= u;
-      s4 += p;
-      p *= u;
-      s5 += p;
-      p *= u;
-      s6 += p;
-      p *= u;
-      s7 += p;
-      p *= u;
-      s8 += p;
-    }
-    double *A = ks->A;
-    A[0] += s0;
-    A[1] += s1;
-    A[2] += s2;
-    A[3] += s3;
-    A[4] += s4;
-    A[5] += s5;
-    A[6] += s6;
-    A[7] += s7;
-    A[8] += s8;
-    s0 = s1 = s2 = s3 = s4 = s5 = s6 = s7 = s8 = 0;
+    tf_v2d s0 = {0, 0}, s1 = s0, s2 = s0, s3 = s0, s4 = s0, s5 = s0,
+           s6 = s0, s7 = s0, s8 = s0;
     double s9 = 0;
     for (size_t i = 0; i < m; i++) {
-      double u = uu[i], u2 = u * u, u4 = u2 * u2, p = c[i] * (u4 * u4 * u);
-      s0 += p;
-      p *= u;
-      s1 += p;
-      p *= u;
-      s2 += p;
-      p *= u;
-      s3 += p;
-      p *= u;
-      s4 += p;
-      p *= u;
-      s5 += p;
-      p *= u;
-      s6 += p;
-      p *= u;
-      s7 += p;
-      p *= u;
-      s8 += p;
-      p *= u;
-      s9 += p;
+      double u = uu[i], u2 = u * u, u4 = u2 * u2, t0d = c[i];
+      double t1d = t0d * u;
+      tf_v2d p01 = {t0d, t1d}, p23 = {t0d * u2, t1d * u2}, q = {u4, u4};
+      s0 += p01;
+      s1 += p23;
+      p01 *= q;
+      p23 *= q;
+      s2 += p01;
+      s3 += p23;
+      p01 *= q;
+      p23 *= q;
+      s4 += p01;
+      s5 += p23;
+      p01 *= q;
+      p23 *= q;
+      s6 += p01;
+      s7 += p23;
+      p01 *= q;
+      p23 *= q;
+      s8 += p01;
+      s9 += p23[0];
     }
-    A[9] += s0;
-    A[10] += s1;
-    A[11] += s2;
-    A[12] += s3;
-    A[13] += s4;
-    A[14] += s5;
-    A[15] += s6;
-    A[16] += s7;
-    A[17] += s8;
+    tf_v2d_store(A, tf_v2d_load(A) + s0);
+    tf_v2d_store(A + 2, tf_v2d_load(A + 2) + s1);
+    tf_v2d_store(A + 4, tf_v2d_load(A + 4) + s2);
+    tf_v2d_store(A + 6, tf_v2d_load(A + 6) + s3);
+    tf_v2d_store(A + 8, tf_v2d_load(A + 8) + s4);
+    tf_v2d_store(A + 10, tf_v2d_load(A + 10) + s5);
+    tf_v2d_store(A + 12, tf_v2d_load(A + 12) + s6);
+    tf_v2d_store(A + 14, tf_v2d_load(A + 14) + s7);
+    tf_v2d_store(A + 16, tf_v2d_load(A + 16) + s8);
     A[18] += s9;
   }
   ks->z = z;
