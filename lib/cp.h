@@ -48,6 +48,7 @@ typedef struct tf_cpdata {
   /* constants of the segment marginals, set by tf_cp_constants() */
   double lvl0;         /* alpha log beta - lgamma(alpha)                 */
   double lbeta, lphi, lrsd; /* log beta, log phi, log rsd                */
+  double iphi, irsd2;  /* 1 / phi, 1 / rsd^2                              */
 } tf_cpdata;
 
 /* Set the constants above from alpha, beta, phi and rsd; tf_cp_prepare
@@ -182,8 +183,7 @@ typedef struct tf_kfit {
   double haa, hab, hbb; /* negative Hessian at its last evaluation     */
   double p3;     /* there e^a E3 / phi (NAN: not known)                */
   double a0, ea0; /* e^{a0} computed by exp (ea0 0: none)              */
-  double kv, kphi, krsd, iv, iphi, irsd2; /* 1/v, 1/phi, 1/rsd^2 for the
-                    v, phi, rsd they were computed from (zero: none)   */
+  double kv, iv;  /* 1/v for the v it was computed from (kv 0: none)   */
 } tf_kfit;
 /* log P(s, e) without the per-day constants (tf_cpdata.cconst); updates
  * *fit (warm start in, mode out).  Cheapest when called for e = s, s+1,
@@ -210,6 +210,16 @@ static inline double tf_lg(const tf_lenprior *lp, size_t s, size_t len) {
 /* log P(length >= len). */
 static inline double tf_lsurv(const tf_lenprior *lp, size_t s, size_t len) {
   return s == 0 ? lp->lS0[len - 1] : lp->lS[len - 1];
+}
+
+/* Whether every argument is finite: x - x is 0 for a finite x and NaN for
+ * an infinite or NaN one (a few subtractions and one comparison, where
+ * isfinite costs a mask and a comparison each). */
+static inline int tf_finite2(double a, double b) {
+  return (a - a) + (b - b) == 0;
+}
+static inline int tf_finite4(double a, double b, double c, double d) {
+  return ((a - a) + (b - b)) + ((c - c) + (d - d)) == 0;
 }
 
 /* Two doubles in one register (GCC and Clang vector extensions), for

@@ -328,7 +328,7 @@ static inline int ks_sums(kl_ctx *x, double b, double *E) {
   e23 += o23;
   tf_v2d_store(E, e01);
   tf_v2d_store(E + 2, e23);
-  return E[0] > 0 && isfinite(E[2]);
+  return E[0] > 0 && E[2] - E[2] == 0;
 }
 
 static inline void kl_eval_at(kl_ctx *x, double a, double b, kl_eval *r) {
@@ -348,7 +348,7 @@ static inline void kl_eval_at(kl_ctx *x, double a, double b, kl_eval *r) {
     double zm = a - x->m, zb = b - x->d->rmean;
     r->f = (a * x->Y + b * x->S1) * x->iphi - P - 0.5 * zm * zm * x->iv -
            0.5 * zb * zb * x->irsd2;
-    if (isfinite(r->f) && isfinite(P2 * P)) {
+    if (tf_finite2(r->f, P2 * P)) {
       double V = P * P2 - P1 * P1; /* P^2 V */
       if (V < 0)
         V = 0;
@@ -366,90 +366,43 @@ static inline void kl_eval_at(kl_ctx *x, double a, double b, kl_eval *r) {
   kl_evaluate(x->d, x->s, x->e, x->c, x->Y, x->S1, x->m, x->v, a, b, r);
 }
 
-double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
-                         double v, kl_fit *fit) {
-  double c = (double)s - 1;
-  double Y = tf_sumy(d, s, e), S1 = tf_sumty(d, s, e) - c * Y;
-  double L = (double)(e - s + 1);
-  double a = isfinite(fit->a) ? fit->a : m;
-  double b = isfinite(fit->b) ? fit->b : d->rmean;
-  if (!(fit->kv == v && fit->kphi == d->phi && fit->krsd == d->rsd)) {
-    /* the start's constants (the same for every end) */
-    fit->kv = v;
-    fit->kphi = d->phi;
-    fit->krsd = d->rsd;
-    fit->iv = 1 / v;
-    fit->iphi = 1 / d->phi;
-    fit->irsd2 = 1 / (d->rsd * d->rsd);
-  }
-  double iphi = fit->iphi;
-  kl_ctx x = {d, s, e, c, Y, S1, m, v, L, iphi, fit->iv, fit->irsd2, NULL,
-              fit->a0, fit->ea0};
-  if (!(x.ea0 > 0)) {
-    x.a0 = a;
-    x.ea0 = exp(a);
-  }
-  if (e - s < KL_KS_MAXLEN) {
-    tf_ksums *ks = &fit->ks;
-    if (ks->live && ks->e <= e && ks->e + 1 >= s)
-      ks_extend(d, ks, s, e);
-    else if (fabs(b) * L <= KL_BREF_RANGE)
-      ks_build(d, ks, s, e, b);
-    else
-      ks->live = 0;
-    if (ks->live)
-      x.ks = ks;
-  }
-  if (fit->next == e && e > s && isfinite(fit->a) && isfinite(fit->b)) {
-    /* warm start: one Newton step from the mode of [s, e-1] for the new
-     * day's term alone, with the Hessian kept from that fit (the gradient
-     * of the rest is zero there to the tolerance below) */
-    if (!tf_isnan(d->y[e])) {
-      /* e^{a + b L} from e^{a0} and the sums' e^{bref L}, by short
-       * series (relative error below 1e-8: enough for a starting
-       * point) */
-      double ex, za = a - x.a0, zb = x.ks ? (b - x.ks->bref) * L : 1;
-      if (fabs(za) <= 0.02 && fabs(zb) <= 0.7)
-        ex = x.ea0 * kl_expsmall(za) * x.ks->z *
-             (1 + zb * (1 + zb * 0.5 * (1 + zb * (1.0 / 3) * (1 + zb * 0.25 *
-             (1 + zb * 0.2 * (1 + zb * (1.0 / 6) * (1 + zb * (1.0 / 7) *
-             (1 + zb * 0.125 * (1 + zb * (1.0 / 9) * (1 + zb * 0.1))))))))));
-      else
-        ex = exp(a + b * L);
-      double h = d->wcls[x.ks ? x.ks->cls : tf_cls(d, e)] * ex * iphi;
-      double g = d->y[e] * iphi - h;
-      double haa = fit->haa + h, hab = fit->hab + h * L,
-             hbb = fit->hbb + h * L * L;
-      double idet = 1 / (haa * hbb - hab * hab);
-      double da = (hbb - hab * L) * g * idet, db = (haa * L - hab) * g * idet;
-      if (isfinite(fit->p3)) {
-        /* and the second-order part: the gradient that step leaves,
-         * -D3P[d, d] / 2 from the third derivatives of P = e^a E0 / phi
-         * (P, P m1, P m2, P m3, the day's terms included), taken out by
-         * the same Hessian */
-        double L2 = L * L, P0 = fit->haa - x.iv + h, P1 = hab,
-               P2 = hbb - x.irsd2, P3 = fit->p3 + h * L2 * L;
-        double ra = -0.5 * (P0 * da * da + 2 * P1 * da * db + P2 * db * db);
-        double rb = -0.5 * (P1 * da * da + 2 * P2 * da * db + P3 * db * db);
-        da += (hbb * ra - hab * rb) * idet;
-        db += (haa * rb - hab * ra) * idet;
-      }
-      if (fabs(da) < 1 && fabs(db) < 0.1) {
-        a += da;
-        b += db;
-      }
-    }
-  } else if (isfinite(fit->pa) && isfinite(fit->a) && isfinite(fit->b) &&
-             fabs(fit->a - fit->pa) < 1 && fabs(fit->b - fit->pb) < 0.1) {
-    /* warm start: the modes of [s, e-2] and [s, e-1] extrapolated (not
-     * after a large move) */
-    a += fit->a - fit->pa;
-    b += fit->b - fit->pb;
-  }
-  fit->pa = fit->a;
-  fit->pb = fit->b;
-  kl_eval r, rn;
-  kl_eval_at(&x, a, b, &r);
+/* The end of a fit at the mode (a, b), f the maximum of the log density
+ * there and r its evaluation (idet = 1 / r->det): the Laplace log
+ * marginal, with the fit's state updated; NAN when something is not
+ * finite (the fit then unchanged). */
+static inline double kl_finish(const tf_cpdata *d, size_t e, double v,
+                               double L, kl_fit *fit, const kl_ctx *x,
+                               double a, double b, double f,
+                               const kl_eval *r, double idet) {
+  double va = r->hbb * idet, vb = r->haa * idet, cab = -r->hab * idet;
+  double xv = va + L * L * vb + 2 * L * cab;
+  /* N(a) N(b) (2 pi)^-1 against the Laplace (2 pi)^+1: they cancel */
+  double lp = f - 0.5 * log(v * d->rsd * d->rsd * r->det);
+  if (!(tf_finite4(lp, a, b, xv) && vb > 0 && vb - vb == 0))
+    return NAN;
+  fit->a = a;
+  fit->b = b;
+  fit->bvar = vb;
+  fit->xm = a + b * L;
+  fit->xv = xv > 1e-30 ? xv : 1e-30;
+  fit->next = e + 1;
+  fit->haa = r->haa;
+  fit->hab = r->hab;
+  fit->hbb = r->hbb;
+  fit->p3 = r->p3;
+  fit->a0 = x->a0;
+  fit->ea0 = x->ea0;
+  return lp;
+}
+
+/* The rest of tf_seg_kink after its first evaluation r at (a, b), when
+ * Newton did not converge there at once (kept out of line: about 4% of
+ * the candidates). */
+static double kl_rest(const tf_cpdata *d, size_t s, size_t e, double m,
+                      double v, kl_fit *fit, kl_ctx x, double a, double b,
+                      kl_eval r) {
+  double c = x.c, Y = x.Y, L = x.L;
+  kl_eval rn;
   if (r.f == -INFINITY) {
     a = m;
     b = d->rmean;
@@ -524,26 +477,9 @@ newton:
   }
 result: {
     double idet = isnan(idet_r) ? 1 / r.det : idet_r;
-    double va = r.hbb * idet, vb = r.haa * idet, cab = -r.hab * idet;
-    double xv = va + L * L * vb + 2 * L * cab;
-    /* N(a) N(b) (2 pi)^-1 against the Laplace (2 pi)^+1: they cancel */
-    double lp = f - 0.5 * log(v * d->rsd * d->rsd * r.det);
-    if (isfinite(lp) && isfinite(a) && isfinite(b) && isfinite(vb) &&
-        vb > 0 && isfinite(xv)) {
-      fit->a = a;
-      fit->b = b;
-      fit->bvar = vb;
-      fit->xm = a + b * L;
-      fit->xv = xv > 1e-30 ? xv : 1e-30;
-      fit->next = e + 1;
-      fit->haa = r.haa;
-      fit->hab = r.hab;
-      fit->hbb = r.hbb;
-      fit->p3 = r.p3;
-      fit->a0 = x.a0;
-      fit->ea0 = x.ea0;
+    double lp = kl_finish(d, e, v, L, fit, &x, a, b, f, &r, idet);
+    if (!isnan(lp))
       return lp;
-    }
     if (!retry)
       goto again;
   }
@@ -584,6 +520,106 @@ fallback:
   fit->xm = m + d->rmean * L;
   fit->xv = v + L * L * d->rsd * d->rsd;
   return -INFINITY;
+}
+
+
+double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
+                         double v, kl_fit *fit) {
+  double c = (double)s - 1;
+  double Y = tf_sumy(d, s, e), S1 = tf_sumty(d, s, e) - c * Y;
+  double L = (double)(e - s + 1);
+  double a = isfinite(fit->a) ? fit->a : m;
+  double b = isfinite(fit->b) ? fit->b : d->rmean;
+  if (!(fit->kv == v)) {
+    /* the start's constant (the same for every end) */
+    fit->kv = v;
+    fit->iv = 1 / v;
+  }
+  double iphi = d->iphi;
+  kl_ctx x = {d, s, e, c, Y, S1, m, v, L, iphi, fit->iv, d->irsd2, NULL,
+              fit->a0, fit->ea0};
+  if (!(x.ea0 > 0)) {
+    x.a0 = a;
+    x.ea0 = exp(a);
+  }
+  if (e - s < KL_KS_MAXLEN) {
+    tf_ksums *ks = &fit->ks;
+    if (ks->live && ks->e <= e && ks->e + 1 >= s)
+      ks_extend(d, ks, s, e);
+    else if (fabs(b) * L <= KL_BREF_RANGE)
+      ks_build(d, ks, s, e, b);
+    else
+      ks->live = 0;
+    if (ks->live)
+      x.ks = ks;
+  }
+  if (fit->next == e && e > s && tf_finite2(fit->a, fit->b)) {
+    /* warm start: one Newton step from the mode of [s, e-1] for the new
+     * day's term alone, with the Hessian kept from that fit (the gradient
+     * of the rest is zero there to the tolerance below) */
+    if (!tf_isnan(d->y[e])) {
+      /* e^{a + b L} from e^{a0} and the sums' e^{bref L}, by short
+       * series (relative error below 1e-8: enough for a starting
+       * point) */
+      double ex, za = a - x.a0, zb = x.ks ? (b - x.ks->bref) * L : 1;
+      if (fabs(za) <= 0.02 && fabs(zb) <= 0.7)
+        ex = x.ea0 * kl_expsmall(za) * x.ks->z *
+             (1 + zb * (1 + zb * 0.5 * (1 + zb * (1.0 / 3) * (1 + zb * 0.25 *
+             (1 + zb * 0.2 * (1 + zb * (1.0 / 6) * (1 + zb * (1.0 / 7) *
+             (1 + zb * 0.125 * (1 + zb * (1.0 / 9) * (1 + zb * 0.1))))))))));
+      else
+        ex = exp(a + b * L);
+      double h = d->wcls[x.ks ? x.ks->cls : tf_cls(d, e)] * ex * iphi;
+      double g = d->y[e] * iphi - h;
+      double haa = fit->haa + h, hab = fit->hab + h * L,
+             hbb = fit->hbb + h * L * L;
+      double idet = 1 / (haa * hbb - hab * hab);
+      double da = (hbb - hab * L) * g * idet, db = (haa * L - hab) * g * idet;
+      if (isfinite(fit->p3)) {
+        /* and the second-order part: the gradient that step leaves,
+         * -D3P[d, d] / 2 from the third derivatives of P = e^a E0 / phi
+         * (P, P m1, P m2, P m3, the day's terms included), taken out by
+         * the same Hessian */
+        double L2 = L * L, P0 = fit->haa - x.iv + h, P1 = hab,
+               P2 = hbb - x.irsd2, P3 = fit->p3 + h * L2 * L;
+        double ra = -0.5 * (P0 * da * da + 2 * P1 * da * db + P2 * db * db);
+        double rb = -0.5 * (P1 * da * da + 2 * P2 * da * db + P3 * db * db);
+        da += (hbb * ra - hab * rb) * idet;
+        db += (haa * rb - hab * ra) * idet;
+      }
+      if (fabs(da) < 1 && fabs(db) < 0.1) {
+        a += da;
+        b += db;
+      }
+    }
+  } else if (isfinite(fit->pa) && isfinite(fit->a) && isfinite(fit->b) &&
+             fabs(fit->a - fit->pa) < 1 && fabs(fit->b - fit->pb) < 0.1) {
+    /* warm start: the modes of [s, e-2] and [s, e-1] extrapolated (not
+     * after a large move) */
+    a += fit->a - fit->pa;
+    b += fit->b - fit->pb;
+  }
+  fit->pa = fit->a;
+  fit->pb = fit->b;
+  kl_eval r;
+  kl_eval_at(&x, a, b, &r);
+  if (r.f != -INFINITY) {
+    /* the common case: the first Newton step from the warm start is
+     * already below the tolerance (as in kl_rest's first pass) */
+    double idet = 1 / r.det;
+    double da = (r.hbb * r.ga - r.hab * r.gb) * idet;
+    double db = (r.haa * r.gb - r.hab * r.ga) * idet;
+    if (tf_finite2(da, db)) {
+      double lambda2 = r.ga * da + r.gb * db;
+      if (lambda2 < 1e-6) {
+        double lp = kl_finish(d, e, v, L, fit, &x, a + da, b + db,
+                              r.f + 0.5 * lambda2, &r, idet);
+        if (!isnan(lp))
+          return lp;
+      }
+    }
+  }
+  return kl_rest(d, s, e, m, v, fit, x, a, b, r);
 }
 
 /* e-major entries before they are put in per-start order. */

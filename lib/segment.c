@@ -1375,4 +1375,6 @@ void tf_cp_constants(tf_cpdata *d) {
   d->lvl0 = d->alpha * d->lbeta - tf_lgamma(d->alpha);
   d->lphi = log(d->phi);
   d->lrsd = log(d->rsd);
+  d->iphi = 1 / d->phi;
+  d->irsd2 = 1 / (d->rsd * d->rsd);
 }
