@@ -212,6 +212,42 @@ static inline double tf_lsurv(const tf_lenprior *lp, size_t s, size_t len) {
   return s == 0 ? lp->lS0[len - 1] : lp->lS[len - 1];
 }
 
+/* e^x for x <= 0 (x = -inf gives 0; also right for 0 < x < 709), within
+ * about 2 ulp of the exact
+ * value: x = k ln 2 + r with |r| <= ln 2 / 2 (Cody & Waite 1980, Software
+ * Manual for the Elementary Functions, ch. 6: ln 2 in two parts, the first
+ * with trailing zero bits so that k ln2_hi is exact), e^r by its Taylor
+ * polynomial of degree 13 (remainder below 5e-18 relative), and 2^k put
+ * into the exponent bits.  Inline, branch-light and without errno, for
+ * loops that take one per term; x < -708 goes to exp (subnormal results). */
+static inline double tf_exp_le0(double x) {
+  if (!(x >= -708.0))
+    return x > -746.0 ? exp(x) : 0.0; /* NaN gives 0 too */
+  const double shift = 6755399441055744.0; /* 1.5 * 2^52: rounds to integer */
+  double kd = x * 1.4426950408889634 + shift;
+  kd -= shift;
+  double r = (x - kd * 6.93147180369123816490e-01) - kd * 1.90821492927058770002e-10;
+  double p = 1.0 / 6227020800.0;
+  p = p * r + 1.0 / 479001600.0;
+  p = p * r + 1.0 / 39916800.0;
+  p = p * r + 1.0 / 3628800.0;
+  p = p * r + 1.0 / 362880.0;
+  p = p * r + 1.0 / 40320.0;
+  p = p * r + 1.0 / 5040.0;
+  p = p * r + 1.0 / 720.0;
+  p = p * r + 1.0 / 120.0;
+  p = p * r + 1.0 / 24.0;
+  p = p * r + 1.0 / 6.0;
+  p = p * r + 0.5;
+  p = p * r + 1.0;
+  p = p * r + 1.0;
+  int64_t k = (int64_t)kd;
+  uint64_t bits = (uint64_t)(k + 1023) << 52;
+  double sc;
+  memcpy(&sc, &bits, sizeof sc);
+  return p * sc;
+}
+
 /* Whether every argument is finite: x - x is 0 for a finite x and NaN for
  * an infinite or NaN one (a few subtractions and one comparison, where
  * isfinite costs a mask and a comparison each). */

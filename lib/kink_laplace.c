@@ -780,7 +780,7 @@ static int kl_forward(twofold_changes *ch, kl_work *w, kl_entries *E) {
     double tot = 0, sumg = 0;
     for (size_t i = 0; i < na; i++) {
       size_t s = w->act[i], L = e - s + 1;
-      double q = w->sv[i] > -INFINITY ? exp(w->sv[i] - ref) : 0;
+      double q = tf_exp_le0(w->sv[i] - ref);
       double g = q * (s == 0 ? w->hz0[L] : w->hz[L]);
       w->qs[i] = q;
       w->qg[i] = g;
@@ -805,7 +805,7 @@ static int kl_forward(twofold_changes *ch, kl_work *w, kl_entries *E) {
         sumg = 0;
         if (rg > -INFINITY) {
           for (size_t i = 0; i < na; i++) {
-            double g = w->qg[i] > -INFINITY ? exp(w->qg[i] - rg) : 0;
+            double g = tf_exp_le0(w->qg[i] - rg);
             w->qg[i] = g;
             sumg += g;
           }
