@@ -496,9 +496,9 @@ static inline void lsum_add(double *m, double *s, double x) {
   if (x == -INFINITY)
     return;
   if (x <= *m) {
-    *s += tf_exp_le0(x - *m);
+    *s += tf_exp_inl(x - *m);
   } else {
-    *s = *m == -INFINITY ? 1 : *s * tf_exp_le0(*m - x) + 1;
+    *s = *m == -INFINITY ? 1 : *s * tf_exp_inl(*m - x) + 1;
     *m = x;
   }
 }

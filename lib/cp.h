@@ -212,17 +212,17 @@ static inline double tf_lsurv(const tf_lenprior *lp, size_t s, size_t len) {
   return s == 0 ? lp->lS0[len - 1] : lp->lS[len - 1];
 }
 
-/* e^x for x <= 0 (x = -inf gives 0; also right for 0 < x < 709), within
- * about 2 ulp of the exact
- * value: x = k ln 2 + r with |r| <= ln 2 / 2 (Cody & Waite 1980, Software
- * Manual for the Elementary Functions, ch. 6: ln 2 in two parts, the first
- * with trailing zero bits so that k ln2_hi is exact), e^r by its Taylor
- * polynomial of degree 13 (remainder below 5e-18 relative), and 2^k put
- * into the exponent bits.  Inline, branch-light and without errno, for
- * loops that take one per term; x < -708 goes to exp (subnormal results). */
-static inline double tf_exp_le0(double x) {
-  if (!(x >= -708.0))
-    return x > -746.0 ? exp(x) : 0.0; /* NaN gives 0 too */
+/* e^x within about 2 ulp of the exact value, inline, branch-light and
+ * without errno, for loops that take one per term: x = k ln 2 + r with
+ * |r| <= ln 2 / 2 (Cody & Waite 1980, Software Manual for the Elementary
+ * Functions, ch. 6: ln 2 in two parts, the first with trailing zero bits
+ * so that k ln2_hi is exact), e^r by its Taylor polynomial of degree 13
+ * (remainder below 5e-18 relative), and 2^k put into the exponent bits.
+ * x outside [-708, 709] (subnormal or infinite results, -inf, NaN) goes to
+ * exp. */
+static inline double tf_exp_inl(double x) {
+  if (!(x >= -708.0 && x <= 709.0))
+    return exp(x);
   const double shift = 6755399441055744.0; /* 1.5 * 2^52: rounds to integer */
   double kd = x * 1.4426950408889634 + shift;
   kd -= shift;

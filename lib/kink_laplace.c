@@ -558,17 +558,7 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
      * day's term alone, with the Hessian kept from that fit (the gradient
      * of the rest is zero there to the tolerance below) */
     if (!tf_isnan(d->y[e])) {
-      /* e^{a + b L} from e^{a0} and the sums' e^{bref L}, by short
-       * series (relative error below 1e-8: enough for a starting
-       * point) */
-      double ex, za = a - x.a0, zb = x.ks ? (b - x.ks->bref) * L : 1;
-      if (fabs(za) <= 0.02 && fabs(zb) <= 0.7)
-        ex = x.ea0 * kl_expsmall(za) * x.ks->z *
-             (1 + zb * (1 + zb * 0.5 * (1 + zb * (1.0 / 3) * (1 + zb * 0.25 *
-             (1 + zb * 0.2 * (1 + zb * (1.0 / 6) * (1 + zb * (1.0 / 7) *
-             (1 + zb * 0.125 * (1 + zb * (1.0 / 9) * (1 + zb * 0.1))))))))));
-      else
-        ex = exp(a + b * L);
+      double ex = tf_exp_inl(a + b * L);
       double h = d->wcls[x.ks ? x.ks->cls : tf_cls(d, e)] * ex * iphi;
       double g = d->y[e] * iphi - h;
       double haa = fit->haa + h, hab = fit->hab + h * L,
@@ -780,7 +770,7 @@ static int kl_forward(twofold_changes *ch, kl_work *w, kl_entries *E) {
     double tot = 0, sumg = 0;
     for (size_t i = 0; i < na; i++) {
       size_t s = w->act[i], L = e - s + 1;
-      double q = tf_exp_le0(w->sv[i] - ref);
+      double q = tf_exp_inl(w->sv[i] - ref);
       double g = q * (s == 0 ? w->hz0[L] : w->hz[L]);
       w->qs[i] = q;
       w->qg[i] = g;
@@ -805,7 +795,7 @@ static int kl_forward(twofold_changes *ch, kl_work *w, kl_entries *E) {
         sumg = 0;
         if (rg > -INFINITY) {
           for (size_t i = 0; i < na; i++) {
-            double g = tf_exp_le0(w->qg[i] - rg);
+            double g = tf_exp_inl(w->qg[i] - rg);
             w->qg[i] = g;
             sumg += g;
           }
