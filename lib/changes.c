@@ -490,23 +490,6 @@ static inline double seg_prior(const twofold_changes *ch, size_t s, size_t e) {
   return e + 1 < ch->n ? tf_lg(&ch->lp, s, L) : tf_lsurv(&ch->lp, s, L);
 }
 
-/* A sum of exponentials kept as e^m * s with m the largest exponent so far:
- * one exp per term instead of the exp and log1p of a pairwise tf_lse. */
-static inline void lsum_add(double *m, double *s, double x) {
-  if (x == -INFINITY)
-    return;
-  if (x <= *m) {
-    *s += tf_exp_inl(x - *m);
-  } else {
-    *s = *m == -INFINITY ? 1 : *s * tf_exp_inl(*m - x) + 1;
-    *m = x;
-  }
-}
-
-static inline double lsum_log(double m, double s) {
-  return m == -INFINITY ? -INFINITY : m + log(s);
-}
-
 static int backward(twofold_changes *ch) {
   size_t n = ch->n;
   const tf_cpdata *d = &ch->d;
@@ -541,7 +524,7 @@ static int backward(twofold_changes *ch) {
       if (rc)
         return rc;
       double term = lp + lg + ch->Q[e + 1];
-      lsum_add(&am, &as, term);
+      tf_lsum_add(&am, &as, term);
       if (e + 1 < n && L >= (size_t)ch->opt.min_seg && am > -INFINITY) {
         /* bound < eps * sum, with log sum in [am, am + log nterm] and
          * nterm <= n: the log is needed only between am and am + lnmax */
@@ -557,7 +540,7 @@ static int backward(twofold_changes *ch) {
       }
     }
     ch->stop[t] = e < n ? e : n - 1;
-    ch->Q[t] = lsum_log(am, as);
+    ch->Q[t] = tf_lsum_log(am, as);
   }
   return 0;
 }
@@ -585,17 +568,17 @@ static int forward(twofold_changes *ch) {
   ch->Fa[0] = 0;
   for (size_t s = 0; s < n; s++) {
     if (s > 0)
-      ch->Fa[s] = lsum_log(fm[s], fs[s]);
+      ch->Fa[s] = tf_lsum_log(fm[s], fs[s]);
     if (ch->Fa[s] == -INFINITY || n < 2)
       continue;
     size_t top = ch->stop[s] < n - 1 ? ch->stop[s] : n - 2;
     const double *clp = ch->clogP + ch->off[s] - s;
     for (size_t e = s; e <= top; e++) {
       double v = ch->Fa[s] + clp[e] + tf_lg(&ch->lp, s, e - s + 1);
-      lsum_add(&fm[e + 1], &fs[e + 1], v);
+      tf_lsum_add(&fm[e + 1], &fs[e + 1], v);
     }
   }
-  ch->Fa[n] = lsum_log(fm[n], fs[n]);
+  ch->Fa[n] = tf_lsum_log(fm[n], fs[n]);
   free(fm);
   free(fs);
   return 0;

@@ -248,6 +248,25 @@ static inline double tf_exp_inl(double x) {
   return p * sc;
 }
 
+/* A sum of exponentials kept as e^m * s with m the largest exponent so far
+ * (start from m = -inf, s = 0): one exponential per term instead of the
+ * exp and log1p of a pairwise tf_lse. */
+static inline void tf_lsum_add(double *m, double *s, double x) {
+  if (x == -INFINITY)
+    return;
+  if (x <= *m) {
+    *s += tf_exp_inl(x - *m);
+  } else {
+    *s = *m == -INFINITY ? 1 : *s * tf_exp_inl(*m - x) + 1;
+    *m = x;
+  }
+}
+
+static inline double tf_lsum_log(double m, double s) {
+  return m == -INFINITY ? -INFINITY : m + log(s);
+}
+
+
 /* Whether every argument is finite: x - x is 0 for a finite x and NaN for
  * an infinite or NaN one (a few subtractions and one comparison, where
  * isfinite costs a mask and a comparison each). */

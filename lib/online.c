@@ -223,19 +223,6 @@ static void sor(twofold_online *on, size_t m) {
   renormalise(on);
 }
 
-/* A sum of exponentials kept as e^m * s, m the largest exponent so far:
- * one exp per term. */
-static void lsum_add(double *m, double *s, double x) {
-  if (x == -INFINITY)
-    return;
-  if (x <= *m) {
-    *s += exp(x - *m);
-  } else {
-    *s = *m == -INFINITY ? 1 : *s * exp(*m - x) + 1;
-    *m = x;
-  }
-}
-
 /* Last resort after repeated SOR (rounding only): keep the m largest
  * weights (ties to the earlier start), renormalised. */
 static void keep_largest(twofold_online *on, size_t m) {
@@ -329,7 +316,7 @@ static int add_day(twofold_online *on, double y) {
     size_t s = on->cs[i], l = t - s;
     double h = tf_lg(lp, s, l) - (s == 0 ? lp->lS0[l - 1] : lp->lS[l - 1]);
     hw[i] = on->cw[i] + h;
-    lsum_add(&hm, &hs, hw[i]);
+    tf_lsum_add(&hm, &hs, hw[i]);
   }
   double lnew = hm == -INFINITY ? -INFINITY : hm + log(hs);
   /* KINK: the new candidate's message, from the end levels of the
@@ -368,7 +355,7 @@ static int add_day(twofold_online *on, double y) {
     on->clp[i] = lpn;
     on->cb[i] = b;
     on->cv[i] = v;
-    lsum_add(&zm, &zs, on->cw[i]);
+    tf_lsum_add(&zm, &zs, on->cw[i]);
   }
   double b = d->rmean, v = 0;
   size_t k = on->nc;
@@ -386,7 +373,7 @@ static int add_day(twofold_online *on, double y) {
   on->clp[k] = l1;
   on->cb[k] = b;
   on->cv[k] = v;
-  lsum_add(&zm, &zs, on->cw[k]);
+  tf_lsum_add(&zm, &zs, on->cw[k]);
   double lz = zm == -INFINITY ? -INFINITY : zm + log(zs);
   if (lz == -INFINITY) {
     /* the day is impossible under every candidate (counts beyond what
