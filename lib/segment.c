@@ -399,23 +399,31 @@ void tf_psum_extend(tf_psum *p, const tf_cpdata *d, size_t e) {
   for (size_t t = p->next; t <= e; t++) {
     size_t u = t - p->s;
     if ((u & 31) == 0) /* refresh: the running product drifts ~1 ulp a day */
-      z = exp(p->bref * (double)u);
+      z = tf_exp_inl(p->bref * (double)u);
     if (!tf_isnan(d->y[t])) {
       /* the powers by squaring (short dependency chains) */
       double v = (double)u * iS, v2 = v * v, v4 = v2 * v2, v8 = v4 * v4;
-      double w[TF_PSUM_N];
-      w[0] = d->wcls[cl] * z;
-      w[1] = w[0] * v;
-      w[2] = w[0] * v2;
-      w[3] = w[1] * v2;
-      for (int k = 0; k < 4; k++)
-        w[k + 4] = w[k] * v4;
-      for (int k = 0; k < 8; k++)
-        w[k + 8] = w[k] * v8;
-      for (int k = 16; k < TF_PSUM_N; k++)
-        w[k] = w[k - 8] * v8;
-      for (int k = 0; k < TF_PSUM_N; k++)
-        p->A[k] += w[k];
+      /* in pairs: w[k+4] = w[k] v^4, w[k+8] = w[k] v^8 */
+      _Static_assert(TF_PSUM_N == 22, "tf_psum_extend adds 22 powers");
+      double w0 = d->wcls[cl] * z, w1 = w0 * v;
+      tf_v2d q4 = {v4, v4}, q8 = {v8, v8};
+      tf_v2d w01 = {w0, w1}, w23 = {w0 * v2, w1 * v2};
+      tf_v2d w45 = w01 * q4, w67 = w23 * q4;
+      tf_v2d w89 = w01 * q8, w1011 = w23 * q8, w1213 = w45 * q8,
+             w1415 = w67 * q8;
+      tf_v2d w1617 = w89 * q8, w1819 = w1011 * q8, w2021 = w1213 * q8;
+      double *A = p->A;
+      tf_v2d_store(A, tf_v2d_load(A) + w01);
+      tf_v2d_store(A + 2, tf_v2d_load(A + 2) + w23);
+      tf_v2d_store(A + 4, tf_v2d_load(A + 4) + w45);
+      tf_v2d_store(A + 6, tf_v2d_load(A + 6) + w67);
+      tf_v2d_store(A + 8, tf_v2d_load(A + 8) + w89);
+      tf_v2d_store(A + 10, tf_v2d_load(A + 10) + w1011);
+      tf_v2d_store(A + 12, tf_v2d_load(A + 12) + w1213);
+      tf_v2d_store(A + 14, tf_v2d_load(A + 14) + w1415);
+      tf_v2d_store(A + 16, tf_v2d_load(A + 16) + w1617);
+      tf_v2d_store(A + 18, tf_v2d_load(A + 18) + w1819);
+      tf_v2d_store(A + 20, tf_v2d_load(A + 20) + w2021);
       p->np++;
       p->umax = (double)u;
     }
@@ -474,45 +482,34 @@ static int psum_eval(const tf_psum *p, double b, int nmom, double *E,
    * the compiler keeps in registers; the extra ones are dropped) */
   double acc[TF_PSUM_NMOM];
   if (nmom <= 4) {
-    double s0 = 0, s1 = 0, s2 = 0, s3 = 0;
+    tf_v2d s01 = {0, 0}, s23 = {0, 0};
     for (int k = n; k-- > 0;) {
       const double *A = p->A + k;
-      double ck = c[k];
-      s0 += ck * A[0];
-      s1 += ck * A[1];
-      s2 += ck * A[2];
-      s3 += ck * A[3];
+      tf_v2d ck = {c[k], c[k]};
+      s01 += ck * tf_v2d_load(A);
+      s23 += ck * tf_v2d_load(A + 2);
     }
-    acc[0] = s0;
-    acc[1] = s1;
-    acc[2] = s2;
-    acc[3] = s3;
+    tf_v2d_store(acc, s01);
+    tf_v2d_store(acc + 2, s23);
   } else {
     if (n > TF_PSUM_N - TF_PSUM_NMOM + 1)
       return 1;
-    double s0 = 0, s1 = 0, s2 = 0, s3 = 0, s4 = 0, s5 = 0, s6 = 0, s7 = 0,
-           s8 = 0;
+    tf_v2d s01 = {0, 0}, s23 = {0, 0}, s45 = {0, 0}, s67 = {0, 0};
+    double s8 = 0;
     for (int k = n; k-- > 0;) {
       const double *A = p->A + k;
-      double ck = c[k];
-      s0 += ck * A[0];
-      s1 += ck * A[1];
-      s2 += ck * A[2];
-      s3 += ck * A[3];
-      s4 += ck * A[4];
-      s5 += ck * A[5];
-      s6 += ck * A[6];
-      s7 += ck * A[7];
-      s8 += ck * A[8];
+      double cs = c[k];
+      tf_v2d ck = {cs, cs};
+      s01 += ck * tf_v2d_load(A);
+      s23 += ck * tf_v2d_load(A + 2);
+      s45 += ck * tf_v2d_load(A + 4);
+      s67 += ck * tf_v2d_load(A + 6);
+      s8 += cs * A[8];
     }
-    acc[0] = s0;
-    acc[1] = s1;
-    acc[2] = s2;
-    acc[3] = s3;
-    acc[4] = s4;
-    acc[5] = s5;
-    acc[6] = s6;
-    acc[7] = s7;
+    tf_v2d_store(acc, s01);
+    tf_v2d_store(acc + 2, s23);
+    tf_v2d_store(acc + 4, s45);
+    tf_v2d_store(acc + 6, s67);
     acc[8] = s8;
   }
   double sc = 1;
@@ -833,7 +830,7 @@ double tf_seg_jump_ps(const tf_cpdata *d, tf_psum *p, size_t e, double *bio,
      * plus day e's term are those of [s, e] at wb, exactly, and the
      * centre moves by half a day in e^{-wb h}; one Halley step from there
      * for [s, e] (O(1), one exp) */
-    double wb = p->wb, g = exp(-wb * h), E[4];
+    double wb = p->wb, g = tf_exp_inl(-wb * h), E[4];
     for (int j = 0; j < 4; j++)
       E[j] = p->wE[j];
     if (!tf_isnan(d->y[e])) {
@@ -864,7 +861,7 @@ double tf_seg_jump_ps(const tf_cpdata *d, tf_psum *p, size_t e, double *bio,
     if (rc != 0 || !(E[0] > 0) || !(E[0] <= DBL_MAX))
       break;
     jps_der q;
-    double eh = exp(-b * h);
+    double eh = tf_exp_inl(-b * h);
     if (jps_derivs(E, eh, b, h, iphi, beta, ap, S1p, d->rmean, isd, isd2,
                    &q))
       break;
