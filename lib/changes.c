@@ -591,9 +591,8 @@ static void axpy(double *restrict y, const double *restrict x, double a,
   size_t i = 0;
   tf_v2d va = {a, a};
   for (; i + 4 <= m; i += 4) {
-    tf_v2d_store(y + i, tf_v2d_load(y + i) + va * tf_v2d_load(x + i));
-    tf_v2d_store(y + i + 2,
-                 tf_v2d_load(y + i + 2) + va * tf_v2d_load(x + i + 2));
+    tf_v2d_addto(y + i, va * tf_v2d_load(x + i));
+    tf_v2d_addto(y + i + 2, va * tf_v2d_load(x + i + 2));
   }
   for (; i < m; i++)
     y[i] += a * x[i];

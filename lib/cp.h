@@ -291,6 +291,10 @@ static inline tf_v2d tf_v2d_load(const double *p) {
 static inline void tf_v2d_store(double *p, tf_v2d v) {
   memcpy(p, &v, sizeof v);
 }
+/* p[0..1] += v */
+static inline void tf_v2d_addto(double *p, tf_v2d v) {
+  tf_v2d_store(p, tf_v2d_load(p) + v);
+}
 
 static inline double tf_lse(double a, double b) {
   if (a == -INFINITY)

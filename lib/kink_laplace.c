@@ -171,12 +171,12 @@ static void ks_add(const tf_cpdata *d, tf_ksums *ks, size_t s, size_t t,
   _Static_assert(TF_KS_TERMS + 3 == 19, "ks_add adds 19 powers");
   tf_v2d p01 = {t0, t1}, p23 = {t2, t3}, q = {u4, u4};
   for (int k = 0; k < 16; k += 4) {
-    tf_v2d_store(A + k, tf_v2d_load(A + k) + p01);
-    tf_v2d_store(A + k + 2, tf_v2d_load(A + k + 2) + p23);
+    tf_v2d_addto(A + k, p01);
+    tf_v2d_addto(A + k + 2, p23);
     p01 *= q;
     p23 *= q;
   }
-  tf_v2d_store(A + 16, tf_v2d_load(A + 16) + p01);
+  tf_v2d_addto(A + 16, p01);
   A[18] += p23[0];
 }
 
@@ -206,42 +206,27 @@ static void ks_build(const tf_cpdata *d, tf_ksums *ks, size_t s, size_t e,
       ks->cls = cl;
       cl = cl == 6 ? 0 : cl + 1;
     }
-    tf_v2d s0 = {0, 0}, s1 = s0, s2 = s0, s3 = s0, s4 = s0, s5 = s0,
-           s6 = s0, s7 = s0, s8 = s0;
-    double s9 = 0;
+    /* sums of the powers 2j, 2j+1 (j < 9) and of the power 18 */
+    tf_v2d sp[9] = {{0, 0}};
+    double s18 = 0;
     for (size_t i = 0; i < m; i++) {
       double u = uu[i], u2 = u * u, u4 = u2 * u2, t0d = c[i];
       double t1d = t0d * u;
       tf_v2d p01 = {t0d, t1d}, p23 = {t0d * u2, t1d * u2}, q = {u4, u4};
-      s0 += p01;
-      s1 += p23;
-      p01 *= q;
-      p23 *= q;
-      s2 += p01;
-      s3 += p23;
-      p01 *= q;
-      p23 *= q;
-      s4 += p01;
-      s5 += p23;
-      p01 *= q;
-      p23 *= q;
-      s6 += p01;
-      s7 += p23;
-      p01 *= q;
-      p23 *= q;
-      s8 += p01;
-      s9 += p23[0];
+#pragma GCC unroll 4
+      for (int j = 0; j < 8; j += 2) {
+        sp[j] += p01;
+        sp[j + 1] += p23;
+        p01 *= q;
+        p23 *= q;
+      }
+      sp[8] += p01;
+      s18 += p23[0];
     }
-    tf_v2d_store(A, tf_v2d_load(A) + s0);
-    tf_v2d_store(A + 2, tf_v2d_load(A + 2) + s1);
-    tf_v2d_store(A + 4, tf_v2d_load(A + 4) + s2);
-    tf_v2d_store(A + 6, tf_v2d_load(A + 6) + s3);
-    tf_v2d_store(A + 8, tf_v2d_load(A + 8) + s4);
-    tf_v2d_store(A + 10, tf_v2d_load(A + 10) + s5);
-    tf_v2d_store(A + 12, tf_v2d_load(A + 12) + s6);
-    tf_v2d_store(A + 14, tf_v2d_load(A + 14) + s7);
-    tf_v2d_store(A + 16, tf_v2d_load(A + 16) + s8);
-    A[18] += s9;
+#pragma GCC unroll 9
+    for (int j = 0; j < 9; j++)
+      tf_v2d_addto(A + 2 * j, sp[j]);
+    A[18] += s18;
   }
   ks->z = z;
   ks->e = e;

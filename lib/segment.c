@@ -407,23 +407,17 @@ void tf_psum_extend(tf_psum *p, const tf_cpdata *d, size_t e) {
       _Static_assert(TF_PSUM_N == 22, "tf_psum_extend adds 22 powers");
       double w0 = d->wcls[cl] * z, w1 = w0 * v;
       tf_v2d q4 = {v4, v4}, q8 = {v8, v8};
-      tf_v2d w01 = {w0, w1}, w23 = {w0 * v2, w1 * v2};
-      tf_v2d w45 = w01 * q4, w67 = w23 * q4;
-      tf_v2d w89 = w01 * q8, w1011 = w23 * q8, w1213 = w45 * q8,
-             w1415 = w67 * q8;
-      tf_v2d w1617 = w89 * q8, w1819 = w1011 * q8, w2021 = w1213 * q8;
-      double *A = p->A;
-      tf_v2d_store(A, tf_v2d_load(A) + w01);
-      tf_v2d_store(A + 2, tf_v2d_load(A + 2) + w23);
-      tf_v2d_store(A + 4, tf_v2d_load(A + 4) + w45);
-      tf_v2d_store(A + 6, tf_v2d_load(A + 6) + w67);
-      tf_v2d_store(A + 8, tf_v2d_load(A + 8) + w89);
-      tf_v2d_store(A + 10, tf_v2d_load(A + 10) + w1011);
-      tf_v2d_store(A + 12, tf_v2d_load(A + 12) + w1213);
-      tf_v2d_store(A + 14, tf_v2d_load(A + 14) + w1415);
-      tf_v2d_store(A + 16, tf_v2d_load(A + 16) + w1617);
-      tf_v2d_store(A + 18, tf_v2d_load(A + 18) + w1819);
-      tf_v2d_store(A + 20, tf_v2d_load(A + 20) + w2021);
+      tf_v2d w[11]; /* w[j] = (w_2j, w_2j+1) */
+      w[0] = (tf_v2d){w0, w1};
+      w[1] = (tf_v2d){w0 * v2, w1 * v2};
+      w[2] = w[0] * q4;
+      w[3] = w[1] * q4;
+#pragma GCC unroll 7
+      for (int j = 4; j < 11; j++)
+        w[j] = w[j - 4] * q8;
+#pragma GCC unroll 11
+      for (int j = 0; j < 11; j++)
+        tf_v2d_addto(p->A + 2 * j, w[j]);
       p->np++;
       p->umax = (double)u;
     }
