@@ -10,6 +10,25 @@
 #include <stdint.h>
 #include <string.h>
 
+/* Two doubles in one register (GCC and Clang vector extensions), for
+ * sums whose terms come in independent pairs: each lane does the same
+ * operations in the same order as scalar code would, so the results are
+ * the same to the bit (x86-64 adds and multiplies pairs with SSE2, which
+ * every such processor has; no fused multiply-add is formed). */
+typedef double tf_v2d __attribute__((vector_size(2 * sizeof(double))));
+static inline tf_v2d tf_v2d_load(const double *p) {
+  tf_v2d v;
+  memcpy(&v, p, sizeof v);
+  return v;
+}
+static inline void tf_v2d_store(double *p, tf_v2d v) {
+  memcpy(p, &v, sizeof v);
+}
+/* p[0..1] += v */
+static inline void tf_v2d_addto(double *p, tf_v2d v) {
+  tf_v2d_store(p, tf_v2d_load(p) + v);
+}
+
 /* The options object. */
 struct twofold_cp_options {
   int kind;
@@ -81,6 +100,78 @@ static inline double tf_sumty(const tf_cpdata *d, size_t s, size_t e) {
 void tf_esums(const tf_cpdata *d, size_t s, size_t e, double c, double b,
               double *logE0, double *m1, double *m2);
 
+/* ---- power sums, shared by tf_psum (JUMP) and tf_ksums (KINK) ---------
+ *
+ * For a segment start, A_k = sum_t w_t v_t^k over its present days, v_t
+ * the (scaled) distance of day t from the segment's origin; a day's
+ * terms are added by tf_pow_add, and the Taylor shift
+ *     E_j = sum_{k < n} q^k / k!  A_{j+k},   j = 0..3,
+ * is tf_pow_shift4 (the truncation n is the caller's: see tf_psum and
+ * kink_laplace.c). */
+#define TF_POW_PAIRS 11 /* up to 22 powers */
+
+/* 1 / (k (k - 1)), k >= 2 */
+static const double tf_pow_inv2[TF_POW_PAIRS * 2] = {
+    0,          0,          1.0 / 2,    1.0 / 6,    1.0 / 12,  1.0 / 20,
+    1.0 / 30,   1.0 / 42,   1.0 / 56,   1.0 / 72,   1.0 / 90,  1.0 / 110,
+    1.0 / 132,  1.0 / 156,  1.0 / 182,  1.0 / 210,  1.0 / 240, 1.0 / 272,
+    1.0 / 306,  1.0 / 342,  1.0 / 380,  1.0 / 420};
+
+/* A day's terms t0 v^k, k < 2 npair (4 <= npair <= TF_POW_PAIRS), in
+ * pairs w[j] = (t0 v^2j, t0 v^(2j+1)): v^2 and v^4 by squaring, the
+ * higher ones by steps of v^8 from four pairs back (short chains). */
+static inline void tf_pow_terms(tf_v2d *w, int npair, double t0, double v) {
+  double v2 = v * v, v4 = v2 * v2, v8 = v4 * v4, t1 = t0 * v;
+  tf_v2d q4 = {v4, v4}, q8 = {v8, v8};
+  w[0] = (tf_v2d){t0, t1};
+  w[1] = (tf_v2d){t0 * v2, t1 * v2};
+  w[2] = w[0] * q4;
+  w[3] = w[1] * q4;
+#pragma GCC unroll 8
+  for (int j = 4; j < npair; j++)
+    w[j] = w[j - 4] * q8;
+}
+
+/* A[k] += t0 v^k, k < npow (8 <= npow <= 2 TF_POW_PAIRS). */
+static inline void tf_pow_add(double *A, int npow, double t0, double v) {
+  tf_v2d w[TF_POW_PAIRS];
+  tf_pow_terms(w, (npow + 1) / 2, t0, v);
+#pragma GCC unroll 11
+  for (int j = 0; j < npow / 2; j++)
+    tf_v2d_addto(A + 2 * j, w[j]);
+  if (npow % 2)
+    A[npow - 1] += w[npow / 2][0];
+}
+
+/* E[j] = sum_{k < n} q^k / k! A[j + k], j = 0..3 (A holds n + 3 values,
+ * n <= 2 TF_POW_PAIRS - 3), largest terms first in two interleaved chains,
+ * c_k = c_{k-2} q^2 / (k (k - 1)) for the even and the odd k, each
+ * carrying (E0, E1) and (E2, E3) in pairs. */
+static inline void tf_pow_shift4(const double *A, int n, double q,
+                                 double *E) {
+  double q2 = q * q, ce = 1, co = q;
+  tf_v2d e01 = tf_v2d_load(A), e23 = tf_v2d_load(A + 2);
+  tf_v2d o01 = {0, 0}, o23 = {0, 0};
+  int k = 1;
+  for (; k + 1 < n; k += 2) {
+    tf_v2d vo = {co, co};
+    o01 += vo * tf_v2d_load(A + k);
+    o23 += vo * tf_v2d_load(A + k + 2);
+    ce *= q2 * tf_pow_inv2[k + 1];
+    co *= q2 * tf_pow_inv2[k + 2];
+    tf_v2d ve = {ce, ce};
+    e01 += ve * tf_v2d_load(A + k + 1);
+    e23 += ve * tf_v2d_load(A + k + 3);
+  }
+  if (k < n) {
+    tf_v2d vo = {co, co};
+    o01 += vo * tf_v2d_load(A + k);
+    o23 += vo * tf_v2d_load(A + k + 2);
+  }
+  tf_v2d_store(E, e01 + o01);
+  tf_v2d_store(E + 2, e23 + o23);
+}
+
 /* Incremental power sums for one segment start (METHODS B3; the Taylor
  * shift is derived here).  For a reference start s and slope bref, over
  * the present days t of [s, next) with u = t - s and w_t = wcls of the
@@ -100,7 +191,7 @@ void tf_esums(const tf_cpdata *d, size_t s, size_t e, double c, double b,
  * direct O(L) pass.  Nothing here depends on the segment kind: only the
  * weekday weights and missing days of d are read. */
 #define TF_PSUM_N 22
-#define TF_PSUM_NMOM 9 /* E_0..E_8 at most */
+#define TF_PSUM_NMOM 4 /* E_0..E_3 */
 #define TF_PSUM_SCALE 64.0
 typedef struct tf_psum {
   size_t s;      /* reference start day                              */
@@ -277,24 +368,6 @@ static inline int tf_finite4(double a, double b, double c, double d) {
   return ((a - a) + (b - b)) + ((c - c) + (d - d)) == 0;
 }
 
-/* Two doubles in one register (GCC and Clang vector extensions), for
- * sums whose terms come in independent pairs: each lane does the same
- * operations in the same order as scalar code would, so the results are
- * the same to the bit (x86-64 adds and multiplies pairs with SSE2, which
- * every such processor has; no fused multiply-add is formed). */
-typedef double tf_v2d __attribute__((vector_size(2 * sizeof(double))));
-static inline tf_v2d tf_v2d_load(const double *p) {
-  tf_v2d v;
-  memcpy(&v, p, sizeof v);
-  return v;
-}
-static inline void tf_v2d_store(double *p, tf_v2d v) {
-  memcpy(p, &v, sizeof v);
-}
-/* p[0..1] += v */
-static inline void tf_v2d_addto(double *p, tf_v2d v) {
-  tf_v2d_store(p, tf_v2d_load(p) + v);
-}
 
 static inline double tf_lse(double a, double b) {
   if (a == -INFINITY)

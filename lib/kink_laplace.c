@@ -30,7 +30,7 @@
  * Cost per candidate segment.  The knot, and so the origin u = t - s + 1
  * of the sums E_k = sum w_t u^k e^{b u}, is fixed per start while the end
  * grows, so each start keeps power sums A_k at a reference growth rate
- * (tf_ksums: a day added in O(18), no exp), from which E0..E3 at b near
+ * (tf_ksums: a day added in O(19), no exp), from which E0..E3 at b near
  * the reference follow by a Taylor series whose truncation is bounded
  * below the unit roundoff (see "incremental power sums" below; the
  * sums are rebuilt, O(L), when b leaves the band, and the closed forms
@@ -130,7 +130,10 @@ static void kl_evaluate(const tf_cpdata *d, size_t s, size_t e, double c,
  * The error of e^a E0 / phi in f is then a few ulp times (e^{2 delta} +
  * 2 KL_Z_EXACT) of P itself, i.e. at most about 1e-14 P: 1e-9 for a
  * segment holding 1e5 (tempered) counts.  When b leaves the band
- * (delta > kl_band[TF_KS_TERMS]) the sums are rebuilt at bref = b, O(L). */
+ * (delta > kl_band[TF_KS_TERMS]) the sums are rebuilt at bref = b, O(L).
+ * The day's powers and the shift are the primitives JUMP's tf_psum uses
+ * too (tf_pow_add, tf_pow_shift4 in cp.h), here unscaled (u^k) and with
+ * E0..E3 about the knot. */
 #define KL_Z_EXACT 8
 /* |bref| L beyond which the closed forms of tf_esums take over (the sums
  * would hold numbers near the double range) */
@@ -143,17 +146,10 @@ static const double kl_band[TF_KS_TERMS + 1] = {
     0,         1.1e-16,  1.49e-8, 8.73e-6, 2.27e-4, 1.677e-3,
     6.549e-3,  1.768e-2, 3.778e-2, 6.892e-2, 0.1123, 0.1687,
     0.2380,    0.3197,   0.4132,  0.5177,  0.6324};
-/* 1 / (k (k-1)) */
-static const double kl_inv2[TF_KS_TERMS + 2] = {
-    0,          0,          1.0 / 2,    1.0 / 6,    1.0 / 12,  1.0 / 20,
-    1.0 / 30,   1.0 / 42,   1.0 / 56,   1.0 / 72,   1.0 / 90,  1.0 / 110,
-    1.0 / 132,  1.0 / 156,  1.0 / 182,  1.0 / 210,  1.0 / 240, 1.0 / 272};
 /* the branch-free search in ks_sums is written for 16 terms */
 _Static_assert(TF_KS_TERMS == 16, "ks_sums searches a table of 16");
 
-/* Day t (class cl) added to the sums of the start s.  The powers of u
- * run in four interleaved chains (u^k, u^{k+1}, u^{k+2}, u^{k+3} times
- * u^4), so that the latency is a quarter of one chain's. */
+/* Day t (class cl) added to the sums of the start s (tf_pow_add, cp.h). */
 static void ks_add(const tf_cpdata *d, tf_ksums *ks, size_t s, size_t t,
                    int cl) {
   size_t iu = t - s + 1;
@@ -164,20 +160,7 @@ static void ks_add(const tf_cpdata *d, tf_ksums *ks, size_t s, size_t t,
     ks->z *= ks->eb;
   if (tf_isnan(d->y[t]))
     return;
-  double t0 = d->wcls[cl] * ks->z, u2 = u * u, u4 = u2 * u2;
-  double t1 = t0 * u, t2 = t0 * u2, t3 = t1 * u2;
-  double *A = ks->A;
-  /* the chains in pairs: (t0, t1) and (t2, t3) */
-  _Static_assert(TF_KS_TERMS + 3 == 19, "ks_add adds 19 powers");
-  tf_v2d p01 = {t0, t1}, p23 = {t2, t3}, q = {u4, u4};
-  for (int k = 0; k < 16; k += 4) {
-    tf_v2d_addto(A + k, p01);
-    tf_v2d_addto(A + k + 2, p23);
-    p01 *= q;
-    p23 *= q;
-  }
-  tf_v2d_addto(A + 16, p01);
-  A[18] += p23[0];
+  tf_pow_add(ks->A, TF_KS_TERMS + 3, d->wcls[cl] * ks->z, u);
 }
 
 /* The sums of the days s..e at bref, from scratch: the weights w_t
@@ -210,18 +193,12 @@ static void ks_build(const tf_cpdata *d, tf_ksums *ks, size_t s, size_t e,
     tf_v2d sp[9] = {{0, 0}};
     double s18 = 0;
     for (size_t i = 0; i < m; i++) {
-      double u = uu[i], u2 = u * u, u4 = u2 * u2, t0d = c[i];
-      double t1d = t0d * u;
-      tf_v2d p01 = {t0d, t1d}, p23 = {t0d * u2, t1d * u2}, q = {u4, u4};
-#pragma GCC unroll 4
-      for (int j = 0; j < 8; j += 2) {
-        sp[j] += p01;
-        sp[j + 1] += p23;
-        p01 *= q;
-        p23 *= q;
-      }
-      sp[8] += p01;
-      s18 += p23[0];
+      tf_v2d w[10];
+      tf_pow_terms(w, 10, c[i], uu[i]);
+#pragma GCC unroll 9
+      for (int j = 0; j < 9; j++)
+        sp[j] += w[j];
+      s18 += w[9][0];
     }
 #pragma GCC unroll 9
     for (int j = 0; j < 9; j++)
@@ -285,34 +262,7 @@ static inline int ks_sums(kl_ctx *x, double b, double *E) {
     dx = 0;
     n = 1;
   }
-  /* E_j = sum_k c_k A_{j+k}, c_k = dx^k / k!, in two interleaved chains
-   * c_k = c_{k-2} dx^2 / (k (k-1)) for the even and the odd terms, each
-   * with its own three sums */
-  const double *A = ks->A;
-  double d2 = dx * dx, ce = 1, co = dx;
-  /* (E0, E1) and (E2, E3) in pairs */
-  tf_v2d e01 = tf_v2d_load(A), e23 = tf_v2d_load(A + 2);
-  tf_v2d o01 = {0, 0}, o23 = {0, 0};
-  int k = 1;
-  for (; k + 1 < n; k += 2) {
-    tf_v2d vo = {co, co};
-    o01 += vo * tf_v2d_load(A + k);
-    o23 += vo * tf_v2d_load(A + k + 2);
-    ce *= d2 * kl_inv2[k + 1];
-    co *= d2 * kl_inv2[k + 2];
-    tf_v2d ve = {ce, ce};
-    e01 += ve * tf_v2d_load(A + k + 1);
-    e23 += ve * tf_v2d_load(A + k + 3);
-  }
-  if (k < n) {
-    tf_v2d vo = {co, co};
-    o01 += vo * tf_v2d_load(A + k);
-    o23 += vo * tf_v2d_load(A + k + 2);
-  }
-  e01 += o01;
-  e23 += o23;
-  tf_v2d_store(E, e01);
-  tf_v2d_store(E + 2, e23);
+  tf_pow_shift4(ks->A, n, dx, E);
   return E[0] > 0 && E[2] - E[2] == 0;
 }
 

@@ -341,31 +341,22 @@ direct:
  * terms.  rho is capped at PSUM_RHO, where a series of alternating sign
  * loses at most a factor e^{2 rho} < 7.4 (3 bits) to cancellation. */
 #define PSUM_RHO 1.0
-static const double psum_rmax[TF_PSUM_N] = {
+static const double psum_rmax[32] = {
     1.387779e-17, 5.268356e-09, 4.366726e-06, 1.350839e-04, 1.106899e-03,
     4.633807e-03, 1.315366e-02, 2.919512e-02, 5.487567e-02, 9.167388e-02,
     1.404140e-01, 2.013630e-01, 2.743658e-01, 3.589766e-01, 4.545683e-01,
     5.604160e-01, 6.757565e-01, 7.998281e-01, 9.318959e-01, 1.071267e+00,
-    1.217298e+00, 1.369397e+00};
+    1.217298e+00, 1.369397e+00, INFINITY, INFINITY, INFINITY, INFINITY,
+    INFINITY, INFINITY, INFINITY, INFINITY, INFINITY, INFINITY};
 /* the same for a remainder below 1e-6 (first steps, which only set the
  * direction) */
-static const double psum_rmax_lo[TF_PSUM_N] = {
+static const double psum_rmax_lo[32] = {
     9.999980e-07, 1.412218e-03, 1.795499e-02, 6.766432e-02, 1.545229e-01,
     2.733105e-01, 4.169113e-01, 5.791717e-01, 7.554063e-01, 9.421904e-01,
     1.137040e+00, 1.338145e+00, 1.544169e+00, 1.754113e+00, 1.967220e+00,
     2.182909e+00, 2.400726e+00, 2.620315e+00, 2.841392e+00, 3.063728e+00,
-    3.287137e+00, 3.511466e+00};
-/* 1/k! */
-static const double psum_ifact[TF_PSUM_N] = {
-    1, 1, 0.5,
-    0.16666666666666666, 0.041666666666666664, 0.0083333333333333332,
-    0.0013888888888888889, 0.00019841269841269841, 2.4801587301587302e-05,
-    2.7557319223985893e-06, 2.7557319223985888e-07, 2.505210838544172e-08,
-    2.08767569878681e-09, 1.6059043836821613e-10, 1.1470745597729725e-11,
-    7.6471637318198164e-13, 4.7794773323873853e-14, 2.8114572543455206e-15,
-    1.5619206968586225e-16, 8.2206352466243295e-18, 4.1103176233121648e-19,
-    1.9572941063391263e-20};
-
+    3.287137e+00, 3.511466e+00, INFINITY, INFINITY, INFINITY, INFINITY,
+    INFINITY, INFINITY, INFINITY, INFINITY, INFINITY, INFINITY};
 static void psum_clear(tf_psum *p, double bref) {
   p->next = p->s;
   p->np = 0;
@@ -401,23 +392,7 @@ void tf_psum_extend(tf_psum *p, const tf_cpdata *d, size_t e) {
     if ((u & 31) == 0) /* refresh: the running product drifts ~1 ulp a day */
       z = tf_exp_inl(p->bref * (double)u);
     if (!tf_isnan(d->y[t])) {
-      /* the powers by squaring (short dependency chains) */
-      double v = (double)u * iS, v2 = v * v, v4 = v2 * v2, v8 = v4 * v4;
-      /* in pairs: w[k+4] = w[k] v^4, w[k+8] = w[k] v^8 */
-      _Static_assert(TF_PSUM_N == 22, "tf_psum_extend adds 22 powers");
-      double w0 = d->wcls[cl] * z, w1 = w0 * v;
-      tf_v2d q4 = {v4, v4}, q8 = {v8, v8};
-      tf_v2d w[11]; /* w[j] = (w_2j, w_2j+1) */
-      w[0] = (tf_v2d){w0, w1};
-      w[1] = (tf_v2d){w0 * v2, w1 * v2};
-      w[2] = w[0] * q4;
-      w[3] = w[1] * q4;
-#pragma GCC unroll 7
-      for (int j = 4; j < 11; j++)
-        w[j] = w[j - 4] * q8;
-#pragma GCC unroll 11
-      for (int j = 0; j < 11; j++)
-        tf_v2d_addto(p->A + 2 * j, w[j]);
+      tf_pow_add(p->A, TF_PSUM_N, d->wcls[cl] * z, (double)u * iS);
       p->np++;
       p->umax = (double)u;
     }
@@ -444,68 +419,19 @@ static int psum_eval(const tf_psum *p, double b, int nmom, double *E,
   double del = b - p->bref, rho = fabs(del) * p->umax;
   if (!(rho <= PSUM_RHO))
     return 1; /* also for NaN */
-  /* n - 1 = the first index with rho <= rmax, by bisection */
-  int lo = 0, hi = TF_PSUM_N - 1;
-  while (lo < hi) {
-    int mid = (lo + hi) / 2;
-    if (rho <= rmax[mid])
-      hi = mid;
-    else
-      lo = mid + 1;
-  }
-  int n = lo + 1;
-  if (n > TF_PSUM_N - (nmom <= 4 ? 4 : TF_PSUM_NMOM) + 1)
+  /* n - 1 = the first index with rho <= rmax (a branch-free binary
+   * search of the table, padded to 32 with infinities) */
+  int pos = 0;
+  pos += (rmax[pos + 15] < rho) << 4;
+  pos += (rmax[pos + 7] < rho) << 3;
+  pos += (rmax[pos + 3] < rho) << 2;
+  pos += (rmax[pos + 1] < rho) << 1;
+  pos += rmax[pos] < rho;
+  int n = pos + 1;
+  if (n > TF_PSUM_N - TF_PSUM_NMOM + 1)
     return 1;
-  /* c_k = q^k / k!, the powers by squaring (k < n only) */
-  double c[TF_PSUM_N], q = del * TF_PSUM_SCALE, q2 = q * q, q4 = q2 * q2,
-                       q8 = q4 * q4, q16 = q8 * q8;
-  c[0] = 1;
-  c[1] = q;
-  c[2] = q2;
-  c[3] = q2 * q;
-  for (int k = 4; k < n && k < 8; k++)
-    c[k] = c[k - 4] * q4;
-  for (int k = 8; k < n && k < 16; k++)
-    c[k] = c[k - 8] * q8;
-  for (int k = 16; k < n; k++)
-    c[k] = c[k - 16] * q16;
-  for (int k = 0; k < n; k++)
-    c[k] *= psum_ifact[k];
-  /* E_j = SCALE^j sum_k c_k A_{j+k}, smallest terms first; the sums over
-   * j are independent chains, 4 or TF_PSUM_NMOM of them (fixed counts
-   * the compiler keeps in registers; the extra ones are dropped) */
-  double acc[TF_PSUM_NMOM];
-  if (nmom <= 4) {
-    tf_v2d s01 = {0, 0}, s23 = {0, 0};
-    for (int k = n; k-- > 0;) {
-      const double *A = p->A + k;
-      tf_v2d ck = {c[k], c[k]};
-      s01 += ck * tf_v2d_load(A);
-      s23 += ck * tf_v2d_load(A + 2);
-    }
-    tf_v2d_store(acc, s01);
-    tf_v2d_store(acc + 2, s23);
-  } else {
-    if (n > TF_PSUM_N - TF_PSUM_NMOM + 1)
-      return 1;
-    tf_v2d s01 = {0, 0}, s23 = {0, 0}, s45 = {0, 0}, s67 = {0, 0};
-    double s8 = 0;
-    for (int k = n; k-- > 0;) {
-      const double *A = p->A + k;
-      double cs = c[k];
-      tf_v2d ck = {cs, cs};
-      s01 += ck * tf_v2d_load(A);
-      s23 += ck * tf_v2d_load(A + 2);
-      s45 += ck * tf_v2d_load(A + 4);
-      s67 += ck * tf_v2d_load(A + 6);
-      s8 += cs * A[8];
-    }
-    tf_v2d_store(acc, s01);
-    tf_v2d_store(acc + 2, s23);
-    tf_v2d_store(acc + 4, s45);
-    tf_v2d_store(acc + 6, s67);
-    acc[8] = s8;
-  }
+  double acc[4];
+  tf_pow_shift4(p->A, n, del * TF_PSUM_SCALE, acc);
   double sc = 1;
   for (int j = 0; j < nmom; j++) {
     E[j] = sc * acc[j];

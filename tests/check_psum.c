@@ -141,11 +141,10 @@ START_TEST(sums_against_direct) {
                         "%.17Lg (rel %.2e)",
                         n, e, b, p.bref, j, E[j], R[j], rel);
         }
-        /* the higher moments of the nine-moment form */
-        double E9[TF_PSUM_NMOM];
-        if (tf_psum_eval(&p, b, TF_PSUM_NMOM, E9) == 0)
-          for (int j = 0; j < 4; j++)
-            ck_assert(fabs(E9[j] - E[j]) <= 4e-15 * fabs(E[j]));
+        /* fewer moments: the same leading values */
+        double E2[2];
+        ck_assert_int_eq(tf_psum_eval(&p, b, 2, E2), 0);
+        ck_assert(E2[0] == E[0] && E2[1] == E[1]);
         nev++;
       }
       if (e == n - 1)
