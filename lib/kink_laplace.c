@@ -274,7 +274,7 @@ static inline void kl_eval_at(kl_ctx *x, double a, double b, kl_eval *r) {
       ea = x->ea0 * kl_expsmall(za);
     } else {
       x->a0 = a;
-      x->ea0 = ea = exp(a);
+      x->ea0 = ea = tf_exp_inl(a);
     }
     /* P = e^a E0 / phi, P m1 = e^a E1 / phi, P m2 = e^a E2 / phi and
      * P^2 V = P P m2 - (P m1)^2: no division */
@@ -475,7 +475,7 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
               fit->a0, fit->ea0};
   if (!(x.ea0 > 0)) {
     x.a0 = a;
-    x.ea0 = exp(a);
+    x.ea0 = tf_exp_inl(a);
   }
   if (e - s < KL_KS_MAXLEN) {
     tf_ksums *ks = &fit->ks;
