@@ -357,6 +357,21 @@ static inline double tf_lsum_log(double m, double s) {
   return m == -INFINITY ? -INFINITY : m + log(s);
 }
 
+/* log sum_i e^{x[i]} (-inf when n is 0 or every x[i] is -inf): the largest
+ * first, then one exponential per term against it. */
+static inline double tf_lse_array(const double *x, size_t n) {
+  double m = -INFINITY;
+  for (size_t i = 0; i < n; i++)
+    if (x[i] > m)
+      m = x[i];
+  if (m == -INFINITY)
+    return -INFINITY;
+  double s = 0;
+  for (size_t i = 0; i < n; i++)
+    s += tf_exp_inl(x[i] - m);
+  return m + log(s);
+}
+
 
 /* Whether every argument is finite: x - x is 0 for a finite x and NaN for
  * an infinite or NaN one (a few subtractions and one comparison, where

@@ -311,14 +311,13 @@ static int add_day(twofold_online *on, double y) {
     return 0;
   }
   /* new-segment mass before the day's likelihood */
-  double hm = -INFINITY, hs = 0, *hw = on->sortbuf;
+  double *hw = on->sortbuf;
   for (size_t i = 0; i < on->nc; i++) {
     size_t s = on->cs[i], l = t - s;
     double h = tf_lg(lp, s, l) - (s == 0 ? lp->lS0[l - 1] : lp->lS[l - 1]);
     hw[i] = on->cw[i] + h;
-    tf_lsum_add(&hm, &hs, hw[i]);
   }
-  double lnew = hm == -INFINITY ? -INFINITY : hm + log(hs);
+  double lnew = tf_lse_array(hw, on->nc);
   /* KINK: the new candidate's message, from the end levels of the
    * candidates' fits to day t-1 (before they are updated) */
   double nm = NAN, nv = NAN;
@@ -342,7 +341,6 @@ static int add_day(twofold_online *on, double y) {
       nv = var > 1e-30 ? var : 1e-30;
     }
   }
-  double zm = -INFINITY, zs = 0;
   for (size_t i = 0; i < on->nc; i++) {
     size_t s = on->cs[i], l = t - s;
     const double *S = s == 0 ? lp->lS0 : lp->lS;
@@ -355,7 +353,6 @@ static int add_day(twofold_online *on, double y) {
     on->clp[i] = lpn;
     on->cb[i] = b;
     on->cv[i] = v;
-    tf_lsum_add(&zm, &zs, on->cw[i]);
   }
   double b = d->rmean, v = 0;
   size_t k = on->nc;
@@ -373,8 +370,7 @@ static int add_day(twofold_online *on, double y) {
   on->clp[k] = l1;
   on->cb[k] = b;
   on->cv[k] = v;
-  tf_lsum_add(&zm, &zs, on->cw[k]);
-  double lz = zm == -INFINITY ? -INFINITY : zm + log(zs);
+  double lz = tf_lse_array(on->cw, on->nc);
   if (lz == -INFINITY) {
     /* the day is impossible under every candidate (counts beyond what
      * the segment fits can hold): the filter starts again at this day,
