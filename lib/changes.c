@@ -676,11 +676,11 @@ int tf_cp_results(twofold_changes *ch, int have_fa, const double *cw) {
         W = cw[k];
         w = e + 1 < n ? W * pr[e + 1] : W;
       } else if (e + 1 < n) {
-        W = tf_exp_inl(ch->Fa[s] + lp + tf_lg(&ch->lp, s, e - s + 1) -
+        W = exp(ch->Fa[s] + lp + tf_lg(&ch->lp, s, e - s + 1) -
                        ch->Fa[e + 1]);
         w = W * pr[e + 1];
       } else {
-        W = tf_exp_inl(ch->Fa[s] + lp + tf_lsurv(&ch->lp, s, n - s) - lZ);
+        W = exp(ch->Fa[s] + lp + tf_lsurv(&ch->lp, s, n - s) - lZ);
         w = W;
       }
       if (W == 0)

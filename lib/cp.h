@@ -303,42 +303,6 @@ static inline double tf_lsurv(const tf_lenprior *lp, size_t s, size_t len) {
   return s == 0 ? lp->lS0[len - 1] : lp->lS[len - 1];
 }
 
-/* e^x within about 2 ulp of the exact value, inline, branch-light and
- * without errno, for loops that take one per term: x = k ln 2 + r with
- * |r| <= ln 2 / 2 (Cody & Waite 1980, Software Manual for the Elementary
- * Functions, ch. 6: ln 2 in two parts, the first with trailing zero bits
- * so that k ln2_hi is exact), e^r by its Taylor polynomial of degree 13
- * (remainder below 5e-18 relative), and 2^k put into the exponent bits.
- * x outside [-708, 709] (subnormal or infinite results, -inf, NaN) goes to
- * exp. */
-static inline double tf_exp_inl(double x) {
-  if (!(x >= -708.0 && x <= 709.0))
-    return exp(x);
-  const double shift = 6755399441055744.0; /* 1.5 * 2^52: rounds to integer */
-  double kd = x * 1.4426950408889634 + shift;
-  kd -= shift;
-  double r = (x - kd * 6.93147180369123816490e-01) - kd * 1.90821492927058770002e-10;
-  double p = 1.0 / 6227020800.0;
-  p = p * r + 1.0 / 479001600.0;
-  p = p * r + 1.0 / 39916800.0;
-  p = p * r + 1.0 / 3628800.0;
-  p = p * r + 1.0 / 362880.0;
-  p = p * r + 1.0 / 40320.0;
-  p = p * r + 1.0 / 5040.0;
-  p = p * r + 1.0 / 720.0;
-  p = p * r + 1.0 / 120.0;
-  p = p * r + 1.0 / 24.0;
-  p = p * r + 1.0 / 6.0;
-  p = p * r + 0.5;
-  p = p * r + 1.0;
-  p = p * r + 1.0;
-  int64_t k = (int64_t)kd;
-  uint64_t bits = (uint64_t)(k + 1023) << 52;
-  double sc;
-  memcpy(&sc, &bits, sizeof sc);
-  return p * sc;
-}
-
 /* A sum of exponentials kept as e^m * s with m the largest exponent so far
  * (start from m = -inf, s = 0): one exponential per term instead of the
  * exp and log1p of a pairwise tf_lse. */
@@ -346,9 +310,9 @@ static inline void tf_lsum_add(double *m, double *s, double x) {
   if (x == -INFINITY)
     return;
   if (x <= *m) {
-    *s += tf_exp_inl(x - *m);
+    *s += exp(x - *m);
   } else {
-    *s = *m == -INFINITY ? 1 : *s * tf_exp_inl(*m - x) + 1;
+    *s = *m == -INFINITY ? 1 : *s * exp(*m - x) + 1;
     *m = x;
   }
 }
@@ -368,7 +332,7 @@ static inline double tf_lse_array(const double *x, size_t n) {
     return -INFINITY;
   double s = 0;
   for (size_t i = 0; i < n; i++)
-    s += tf_exp_inl(x[i] - m);
+    s += exp(x[i] - m);
   return m + log(s);
 }
 

@@ -274,7 +274,7 @@ static inline void kl_eval_at(kl_ctx *x, double a, double b, kl_eval *r) {
       ea = x->ea0 * kl_expsmall(za);
     } else {
       x->a0 = a;
-      x->ea0 = ea = tf_exp_inl(a);
+      x->ea0 = ea = exp(a);
     }
     /* P = e^a E0 / phi, P m1 = e^a E1 / phi, P m2 = e^a E2 / phi and
      * P^2 V = P P m2 - (P m1)^2: no division */
@@ -475,7 +475,7 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
               fit->a0, fit->ea0};
   if (!(x.ea0 > 0)) {
     x.a0 = a;
-    x.ea0 = tf_exp_inl(a);
+    x.ea0 = exp(a);
   }
   if (e - s < KL_KS_MAXLEN) {
     tf_ksums *ks = &fit->ks;
@@ -493,7 +493,7 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
      * day's term alone, with the Hessian kept from that fit (the gradient
      * of the rest is zero there to the tolerance below) */
     if (!tf_isnan(d->y[e])) {
-      double ex = tf_exp_inl(a + b * L);
+      double ex = exp(a + b * L);
       double h = d->wcls[x.ks ? x.ks->cls : tf_cls(d, e)] * ex * iphi;
       double g = d->y[e] * iphi - h;
       double haa = fit->haa + h, hab = fit->hab + h * L,
@@ -705,7 +705,7 @@ static int kl_forward(twofold_changes *ch, kl_work *w, kl_entries *E) {
     double tot = 0, sumg = 0;
     for (size_t i = 0; i < na; i++) {
       size_t s = w->act[i], L = e - s + 1;
-      double q = tf_exp_inl(w->sv[i] - ref);
+      double q = exp(w->sv[i] - ref);
       double g = q * (s == 0 ? w->hz0[L] : w->hz[L]);
       w->qs[i] = q;
       w->qg[i] = g;
@@ -730,7 +730,7 @@ static int kl_forward(twofold_changes *ch, kl_work *w, kl_entries *E) {
         sumg = 0;
         if (rg > -INFINITY) {
           for (size_t i = 0; i < na; i++) {
-            double g = tf_exp_inl(w->qg[i] - rg);
+            double g = exp(w->qg[i] - rg);
             w->qg[i] = g;
             sumg += g;
           }

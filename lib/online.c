@@ -165,7 +165,7 @@ static void sor(twofold_online *on, size_t m) {
   size_t nc = on->nc;
   double *w = on->sortbuf;
   for (size_t i = 0; i < nc; i++)
-    w[i] = tf_exp_inl(on->cw[i]);
+    w[i] = exp(on->cw[i]);
   /* sort a copy descending to find alpha */
   double *srt = w + nc;
   memcpy(srt, w, nc * sizeof(double));
@@ -327,7 +327,7 @@ static int add_day(twofold_online *on, double y) {
       if (hw[i] == -INFINITY || !isfinite(on->cf[i].xm) ||
           !isfinite(on->cf[i].xv))
         continue;
-      double om = tf_exp_inl(hw[i] - lnew);
+      double om = exp(hw[i] - lnew);
       if (isnan(ref))
         ref = on->cf[i].xm;
       double dx = on->cf[i].xm - ref;

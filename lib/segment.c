@@ -390,7 +390,7 @@ void tf_psum_extend(tf_psum *p, const tf_cpdata *d, size_t e) {
   for (size_t t = p->next; t <= e; t++) {
     size_t u = t - p->s;
     if ((u & 31) == 0) /* refresh: the running product drifts ~1 ulp a day */
-      z = tf_exp_inl(p->bref * (double)u);
+      z = exp(p->bref * (double)u);
     if (!tf_isnan(d->y[t])) {
       tf_pow_add(p->A, TF_PSUM_N, d->wcls[cl] * z, (double)u * iS);
       p->np++;
@@ -750,7 +750,7 @@ double tf_seg_jump_ps(const tf_cpdata *d, tf_psum *p, size_t e, double *bio,
      * plus day e's term are those of [s, e] at wb, exactly, and the
      * centre moves by half a day in e^{-wb h}; one Halley step from there
      * for [s, e] (O(1), one exp) */
-    double wb = p->wb, g = tf_exp_inl(-wb * h), E[4];
+    double wb = p->wb, g = exp(-wb * h), E[4];
     for (int j = 0; j < 4; j++)
       E[j] = p->wE[j];
     if (!tf_isnan(d->y[e])) {
@@ -781,7 +781,7 @@ double tf_seg_jump_ps(const tf_cpdata *d, tf_psum *p, size_t e, double *bio,
     if (rc != 0 || !(E[0] > 0) || !(E[0] <= DBL_MAX))
       break;
     jps_der q;
-    double eh = tf_exp_inl(-b * h);
+    double eh = exp(-b * h);
     if (jps_derivs(E, eh, b, h, iphi, beta, ap, S1p, d->rmean, isd, isd2,
                    &q))
       break;

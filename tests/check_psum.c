@@ -17,8 +17,7 @@
  * 1e-10 + 4e-15 ap (1 + log ap), ap = alpha + Y/phi, of tf_seg_jump: the
  * marginal is a difference of terms of size ap log ap, so that is the
  * rounding of either method; the mode within 1e-7 posterior standard
- * deviations.  Also the inline exponential tf_exp_inl against the C
- * library's exp.  Compiled with lib/segment.c
+ * deviations.  Compiled with lib/segment.c
  * directly (the functions are not exported). */
 #include "cp.h"
 
@@ -273,45 +272,6 @@ START_TEST(jump_against_solver) {
 }
 END_TEST
 
-/* tf_exp_inl (cp.h), the inline exponential of the recursions' weights,
- * against the C library's exp (glibc's is correctly rounded in practice,
- * within 1 ulp by its documentation) over [-745, 1] and at the edges:
- * within 4 ulp (2 of the method, 1 of the reference, 1 spare), exactly 1
- * at 0 and 0 at -inf. */
-START_TEST(exp_le0_against_libm) {
-  tf_rng r;
-  tf_rng_seed(&r, 20261202);
-  double worst = 0, wx = 0;
-  for (int i = 0; i < 2000000; i++) {
-    double x = i % 5 == 0   ? -745.0 * tf_rng_unif(&r)
-               : i % 5 == 1 ? -2.0 * tf_rng_unif(&r)
-               : i % 5 == 2 ? -1e-6 * tf_rng_unif(&r)
-               : i % 5 == 3 ? 1.0 - 2.0 * tf_rng_unif(&r)
-                            : 709.7 * tf_rng_unif(&r);
-    double a = tf_exp_inl(x), b = exp(x);
-    if (b < DBL_MIN) { /* subnormal results: absolute */
-      ck_assert_double_le(fabs(a - b), 4 * DBL_TRUE_MIN);
-      continue;
-    }
-    double rel = fabs(a - b) / b;
-    if (rel > worst) {
-      worst = rel;
-      wx = x;
-    }
-  }
-  printf("tf_exp_inl: worst relative difference from exp %.3g (%.2f ulp) "
-         "at x = %.17g\n",
-         worst, worst / DBL_EPSILON, wx);
-  ck_assert_double_le(worst, 4 * DBL_EPSILON);
-  ck_assert_double_eq(tf_exp_inl(0.0), 1.0);
-  ck_assert_double_eq(tf_exp_inl(-INFINITY), 0.0);
-  ck_assert_double_eq(tf_exp_inl(-800.0), 0.0);
-  ck_assert_double_eq(tf_exp_inl(-708.5), exp(-708.5));
-  ck_assert_double_eq(tf_exp_inl(710.0), INFINITY);
-  ck_assert(isnan(tf_exp_inl(NAN)));
-}
-END_TEST
-
 int main(void) {
   Suite *s = suite_create("psum");
   TCase *tc = tcase_create("core");
@@ -319,7 +279,6 @@ int main(void) {
   tcase_add_test(tc, sums_against_direct);
   tcase_add_test(tc, band_refused);
   tcase_add_test(tc, jump_against_solver);
-  tcase_add_test(tc, exp_le0_against_libm);
   suite_add_tcase(s, tc);
   SRunner *sr = srunner_create(s);
   srunner_run_all(sr, CK_NORMAL);
