@@ -667,14 +667,13 @@ int tf_cp_results(twofold_changes *ch, int have_fa, const double *cw) {
     size_t stop = ch->stop[s];
     for (size_t e = s; e <= stop; e++) {
       size_t k = cidx(ch, s, e);
-      double lp = ch->clogP[k];
       Wt[e - s] = 0;
-      if (lp == -INFINITY)
-        continue;
-      double W, w;
-      if (cw) {
+      double W, w, lp;
+      if (cw) { /* 0 for an impossible segment */
         W = cw[k];
         w = e + 1 < n ? W * pr[e + 1] : W;
+      } else if ((lp = ch->clogP[k]) == -INFINITY) {
+        continue;
       } else if (e + 1 < n) {
         W = exp(ch->Fa[s] + lp + tf_lg(&ch->lp, s, e - s + 1) -
                        ch->Fa[e + 1]);
