@@ -258,6 +258,7 @@ double tf_seg_jump(const tf_cpdata *d, size_t s, size_t e, double *b,
 typedef struct tf_ksums {
   int live;      /* 1: A holds the days s..e                          */
   int cls;       /* weekday class of day e                            */
+  int nlast;     /* terms of the last evaluation (a search's start)   */
   size_t e;      /* last day added                                    */
   double bref;   /* reference growth rate                             */
   double eb, z;  /* e^{bref} and e^{bref (e - s + 1)}                 */

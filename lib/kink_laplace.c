@@ -146,8 +146,6 @@ static const double kl_band[TF_KS_TERMS + 1] = {
     0,         1.1e-16,  1.49e-8, 8.73e-6, 2.27e-4, 1.677e-3,
     6.549e-3,  1.768e-2, 3.778e-2, 6.892e-2, 0.1123, 0.1687,
     0.2380,    0.3197,   0.4132,  0.5177,  0.6324};
-/* the branch-free search in ks_sums is written for 16 terms */
-_Static_assert(TF_KS_TERMS == 16, "ks_sums searches a table of 16");
 
 /* Day t (class cl) added to the sums of the start s (tf_pow_add, cp.h). */
 static void ks_add(const tf_cpdata *d, tf_ksums *ks, size_t s, size_t t,
@@ -248,13 +246,18 @@ static inline int ks_sums(kl_ctx *x, double b, double *E) {
   double dx = b - ks->bref, delta = fabs(dx) * x->L;
   int n;
   if (delta <= kl_band[TF_KS_TERMS]) {
-    /* the fewest terms: a branch-free binary search of the table */
-    int pos = 0;
-    pos += (kl_band[pos + 8] < delta) * 8;
-    pos += (kl_band[pos + 4] < delta) * 4;
-    pos += (kl_band[pos + 2] < delta) * 2;
-    pos += kl_band[pos + 1] < delta;
-    n = pos + 1;
+    /* the fewest terms, the least n with kl_band[n] >= delta: searched
+     * from the count of the start's last evaluation, which a day moves
+     * by one at most as a rule (a step or two, against the four
+     * dependent steps of a binary search) */
+    n = ks->nlast;
+    if (!(n >= 1 && n <= TF_KS_TERMS))
+      n = TF_KS_TERMS;
+    while (kl_band[n] < delta)
+      n++;
+    while (n > 1 && kl_band[n - 1] >= delta)
+      n--;
+    ks->nlast = n;
   } else {
     if (!(fabs(b) * x->L <= KL_BREF_RANGE))
       return 0;
