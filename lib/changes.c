@@ -8,12 +8,15 @@
  * tau (y_tau ends a segment) is exposed as a change on day tau + 1, the
  * first day of the new regime.
  *   Q[t]  = log p(y_t..y_{n-1} | a segment starts at t), Q[n] = 0;
- *   Fa[i] = log p(y_0..y_{i-1}, a segment ends at i-1), Fa[0] = 0;
- *   P(change on day i | y) = exp(Fa[i] + Q[i] - Q[0]).
+ *   P(change on day i | y) = sum over the segments [s, i-1] of
+ *     P(change on day s | y) P(s, i-1) g(i-s) Q(i) / Q(s)
+ * (in probabilities, forward over the days, after the backward pass; KINK
+ * has the forward sums Fa[i] = log p(y_0..y_{i-1}, a segment ends at i-1)
+ * of its own, and P(change on day i | y) = exp(Fa[i] + Q[i] - Q[0])).
  * Pruning (Fearnhead 2006, sec. 3.3): for each start t the ends e are
  * scanned upward until the bound P(t,e) Q(e+1) P(L >= e-t+1) stays below
- * epsilon times the running sum for 14 consecutive ends; the forward pass,
- * the count distribution, the growth posterior and sampling use the same
+ * epsilon times the running sum for 14 consecutive ends; the change
+ * probabilities, the count distribution, the growth posterior and sampling use the same
  * candidate ends, so all results are those of one (truncated) model.
  * JUMP segments [t, e] for one start t are evaluated with one set of
  * incremental power sums (segment.c, tf_psum), grown by a day as e grows,
@@ -549,41 +552,6 @@ static inline size_t cidx(const twofold_changes *ch, size_t s, size_t e) {
   return ch->off[s] + (e - s);
 }
 
-/* The forward pass over the cache: Fa[t] accumulated as e^fm[t] * fs[t]
- * while the starts before t push their terms; final when the scan reaches
- * t.  (KINK by Laplace messages has Fa from its own forward pass.) */
-static int forward(twofold_changes *ch) {
-  size_t n = ch->n;
-  double *fm = malloc((n + 1) * sizeof(double));
-  double *fs = malloc((n + 1) * sizeof(double));
-  if (!fm || !fs) {
-    free(fm);
-    free(fs);
-    return TWOFOLD_ENOMEM;
-  }
-  for (size_t i = 0; i <= n; i++) {
-    fm[i] = -INFINITY;
-    fs[i] = 0;
-  }
-  ch->Fa[0] = 0;
-  for (size_t s = 0; s < n; s++) {
-    if (s > 0)
-      ch->Fa[s] = tf_lsum_log(fm[s], fs[s]);
-    if (ch->Fa[s] == -INFINITY || n < 2)
-      continue;
-    size_t top = ch->stop[s] < n - 1 ? ch->stop[s] : n - 2;
-    const double *clp = ch->clogP + ch->off[s] - s;
-    for (size_t e = s; e <= top; e++) {
-      double v = ch->Fa[s] + clp[e] + tf_lg(&ch->lp, s, e - s + 1);
-      tf_lsum_add(&fm[e + 1], &fs[e + 1], v);
-    }
-  }
-  ch->Fa[n] = tf_lsum_log(fm[n], fs[n]);
-  free(fm);
-  free(fs);
-  return 0;
-}
-
 /* y[i] += a x[i], i < m, four at a time in pairs (the same additions as
  * the plain loop, to the bit). */
 static void axpy(double *restrict y, const double *restrict x, double a,
@@ -598,35 +566,35 @@ static void axpy(double *restrict y, const double *restrict x, double a,
     y[i] += a * x[i];
 }
 
-int tf_cp_results(twofold_changes *ch, int have_fa, const double *cw) {
+int tf_cp_results(twofold_changes *ch, const double *cw) {
   size_t n = ch->n;
   int K = ch->opt.max_changes;
   double lZ = ch->Q[0];
   ch->logZ = lZ;
-  if (!have_fa) {
-    int rc = forward(ch);
-    if (rc)
-      return rc;
-  }
-  /* change probabilities; pr (unclamped) for the segment weights below */
-  double *pr = malloc((n + 1) * sizeof(double));
+  /* pr[i] = Pr(change on day i | y), unclamped: with cw from Fa and Q
+   * before the pass; otherwise built by the pass itself, in day order
+   * (pr[e+1] = sum_s pr[s] T(s, e), complete when the pass reaches e+1) */
+  double *pr = calloc(n + 1, sizeof(double));
   if (!pr)
     return TWOFOLD_ENOMEM;
-  ch->pch[0] = 0;
-  for (size_t i = 1; i < n; i++) {
-    double v = exp(ch->Fa[i] + ch->Q[i] - lZ);
-    pr[i] = v;
-    ch->pch[i] = v > 1 ? 1 : v;
-  }
-  /* One pass over the candidates.  W = Pr(segment [s, e] | a segment
-   * ends at e) = F(s-1) P(s,e) g(e-s+1) / F(e) for e < n-1, and for the
-   * last segment Pr([s, n-1] | y); the segment probability (METHODS A2) is
-   * then W Pr(change on day e+1 | y): one exp per candidate, or none when
-   * the forward pass of KINK has kept W (cw).
+  if (cw)
+    for (size_t i = 1; i < n; i++)
+      pr[i] = exp(ch->Fa[i] + ch->Q[i] - lZ);
+  pr[0] = 1;
+  /* One pass over the candidates.  With cw (the forward pass of KINK):
+   * W = Pr(segment [s, e] | a segment ends at e) = F(s-1) P(s,e) g(e-s+1)
+   * / F(e) for e < n-1, and for the last segment Pr([s, n-1] | y); the
+   * segment probability (METHODS A2) is then W Pr(change on day e+1 | y).
+   * Otherwise the backward quantities alone: T = Pr(the segment starting
+   * at s ends at e | a change at s, y) = P(s,e) g(e-s+1) Q(e+1) / Q(s),
+   * one exp per candidate, and the segment probability pr[s] T.
    * Growth: segment weights into difference arrays (METHODS A2).
    * Number of changes (METHODS A2): the ratios r_j(t) = F_j(t) / F(t) obey
    * r_{j+1}(e+1) = sum_s r_j(s) W(s, e), and Pr(K = j | y) =
-   * sum_s r_j(s) W(s, n-1), all in [0, 1], so no logarithms are needed.
+   * sum_s r_j(s) W(s, n-1), all in [0, 1], so no logarithms are needed;
+   * without cw, r holds pi_j(t) = Pr(j changes before t, a change at t |
+   * y) = r_j(t) pr[t], with pi_{j+1}(e+1) = sum_s pi_j(s) T(s, e) and
+   * Pr(K = j | y) = sum_s pi_j(s) T(s, n-1).
    * r is held per j over the days; for each start the W of its ends are
    * collected first (Wt, 0 where impossible), so r_{j+1}(s+1..) +=
    * r_j(s) Wt is one contiguous axpy per j (the same additions in the
@@ -652,13 +620,14 @@ int tf_cp_results(twofold_changes *ch, int have_fa, const double *cw) {
   rj[0] = 1; /* r_0(0): no change before day 0 */
   int jump = ch->d.kind != TWOFOLD_CP_LEVEL; /* KINK (Laplace): as JUMP */
   for (size_t s = 0; s < n; s++) {
-    if (ch->Fa[s] == -INFINITY)
+    if (cw ? ch->Fa[s] == -INFINITY : !(pr[s] > 0))
       continue;
     /* r_j(s) above 1e-20 (Pr(j changes before s | change at s)) only for
      * j in [jlo, jhi]; the others are left out, as negligible */
+    double thr = cw ? 1e-20 : 1e-20 * pr[s], prs = pr[s], qs = ch->Q[s];
     int jlo = -1, jhi = -1;
     for (int j = 0; j <= K; j++)
-      if (rj[(size_t)j * np1 + s] > 1e-20) {
+      if (rj[(size_t)j * np1 + s] > thr) {
         if (jlo < 0)
           jlo = j;
         jhi = j;
@@ -675,12 +644,12 @@ int tf_cp_results(twofold_changes *ch, int have_fa, const double *cw) {
       } else if ((lp = ch->clogP[k]) == -INFINITY) {
         continue;
       } else if (e + 1 < n) {
-        W = exp(ch->Fa[s] + lp + tf_lg(&ch->lp, s, e - s + 1) -
-                       ch->Fa[e + 1]);
-        w = W * pr[e + 1];
+        W = exp(lp + tf_lg(&ch->lp, s, e - s + 1) + ch->Q[e + 1] - qs);
+        w = prs * W;
+        pr[e + 1] += w;
       } else {
-        W = exp(ch->Fa[s] + lp + tf_lsurv(&ch->lp, s, n - s) - lZ);
-        w = W;
+        W = exp(lp + tf_lsurv(&ch->lp, s, n - s) - qs);
+        w = prs * W;
       }
       if (W == 0)
         continue;
@@ -713,6 +682,9 @@ int tf_cp_results(twofold_changes *ch, int have_fa, const double *cw) {
   }
   free(Wt);
   free(rj);
+  ch->pch[0] = 0;
+  for (size_t i = 1; i < n; i++)
+    ch->pch[i] = pr[i] > 1 ? 1 : pr[i];
   free(pr);
   double a0 = 0, a1 = 0, a2 = 0;
   for (size_t t = 0; t < n; t++) {
@@ -916,15 +888,14 @@ int twofold_changes_run(twofold_changes *ch, const twofold_cp_options *o,
       return fail(ch, rc);
   } else {
     ch->Q = malloc((n + 1) * sizeof(double));
-    ch->Fa = malloc((n + 1) * sizeof(double));
     ch->stop = malloc(n * sizeof(size_t));
     ch->off = malloc(n * sizeof(size_t));
-    if (!ch->Q || !ch->Fa || !ch->stop || !ch->off)
+    if (!ch->Q || !ch->stop || !ch->off)
       return fail(ch, TWOFOLD_ENOMEM);
     rc = backward(ch);
     if (rc)
       return fail(ch, rc);
-    rc = tf_cp_results(ch, 0, NULL);
+    rc = tf_cp_results(ch, NULL);
     if (rc)
       return fail(ch, rc);
   }

@@ -386,7 +386,7 @@ struct twofold_changes {
   tf_lenprior lp;
   double logZ;     /* log p(y) without the per-day constants */
   /* JUMP/LEVEL: recursions and the segment cache */
-  double *Q, *Fa;  /* n+1 each */
+  double *Q, *Fa;  /* n+1 each (Fa: KINK only) */
   size_t *stop, *off;
   double *clogP, *cb, *cv;
   size_t ncache, capcache;
@@ -415,14 +415,13 @@ int tf_kink_run(struct twofold_changes *ch);
 /* KINK by collapsed Laplace messages (grid 0): fills Q, Fa, stop, off and
  * the segment cache as the JUMP recursions do, then the results. */
 int tf_kinkl_run(struct twofold_changes *ch);
-/* Results from Q, Fa, stop, off and the segment cache: change
- * probabilities, growth, the count distribution and the MAP
- * segmentation.  have_fa: Fa[0..n-1] is already filled (by a forward pass
- * over the same candidates); otherwise it is computed from the cache.
- * cw, if not NULL: per cache entry the weight W(s, e) of the segment given
- * that a segment ends at e (given y for e = n-1), as the forward pass of
- * KINK computes it; otherwise W is taken from Fa, the cache and Q. */
-int tf_cp_results(struct twofold_changes *ch, int have_fa, const double *cw);
+/* Results from Q, stop, off and the segment cache: change probabilities,
+ * growth, the count distribution and the MAP segmentation.  cw, if not
+ * NULL: per cache entry the weight W(s, e) of the segment given that a
+ * segment ends at e (given y for e = n-1), as the forward pass of KINK
+ * computes it, with Fa[0..n-1] filled by the same pass; otherwise the
+ * pass takes the backward quantities alone (one exp per candidate). */
+int tf_cp_results(struct twofold_changes *ch, const double *cw);
 void tf_kink_free(struct tf_kink *k);
 int tf_kink_sample(const struct twofold_changes *ch, uint64_t seed,
                    size_t draws, unsigned char *change, double *rate,

@@ -949,7 +949,7 @@ int tf_kinkl_run(twofold_changes *ch) {
                     n);
     goto out;
   }
-  rc = tf_cp_results(ch, 1, w.cw);
+  rc = tf_cp_results(ch, w.cw);
   w.cw = NULL;
   if (rc)
     goto out;
