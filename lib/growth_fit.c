@@ -1329,7 +1329,20 @@ static int nb_joint(const win_t *w, nbpar *p, double tol, double *mu,
  * theta; *slope the last secant slope.  Returns the adjusted theta, or
  * NAN when it does not converge in 30 passes, a step is wild, theta
  * goes above 1e4 (the flat tail) or tau leaves (tml - 20, tml): the
- * caller then uses cr_theta. */
+ * caller then uses cr_theta.
+ *
+ * The flat tail is recognised before the steps, damped to 0.5, climb
+ * into it.  For large theta the adjusted score behaves as theta g =
+ * A + B/theta + ..., so that theta g is nearly linear in u = 1/theta;
+ * the secant step in u (slope dg/dtau = sl, at g) goes to u (1 + g/(g +
+ * sl)), that is to tau - log1p(g / (g + sl)), or past u = 0 (no root
+ * below the cap) when g / (g + sl) <= -1.  A step climbing from above
+ * theta = e^6 that this predicts beyond 1e4 ends the passes: started
+ * next to the ML fit (whose adjusted score was negative) at once, the
+ * root then lying in the flat tail; started from a far guess, by one
+ * pass at the ML fit itself, which decides as pass 0 does (a
+ * non-negative score there: the ML theta, as cr_theta would find it
+ * first), and otherwise leaves the tail to cr_theta. */
 static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
                       double slope0, double tol, const nblast *last,
                       double *mu, double *se, double *slope) {
@@ -1343,6 +1356,8 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
   /* without a previous slope, -1 (about its size in short windows) */
   double sl = slope0 < 0.0 && isfinite(slope0) ? slope0 : -1.0;
   int own = 0; /* a secant slope of this window seen */
+  int tail = 0; /* the flat tail predicted: pass 0 at the ML fit decides */
+  const double tmax = log(1e4);
   q.theta = exp(tau);
   if (far)
     last = NULL;
@@ -1380,6 +1395,8 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
       dtau = -g / sl;
     } else if (it == 0) {
       /* at the ML fit, beta = beta_theta: the adjusted score there */
+      if (tail && g < 0.0)
+        return NAN; /* a root in the flat tail */
       if (g >= 0.0 && last) {
         /* decided at the ML fit itself: pass 0 again, there */
         last = NULL;
@@ -1412,6 +1429,22 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
     egprev = eg;
     if (tf_isnan(dtau))
       return NAN;
+    if (dtau > 0.5 && tau > 6.0) {
+      /* climbing: the secant step in u = 1/theta (above) */
+      double rq = g / (g + sl);
+      if (!(rq > -1.0) || tau - log1p(rq) > tmax) {
+        if (!far)
+          return NAN;
+        tail = 1;
+        far = 0;
+        last = NULL;
+        q = *p;
+        tau = tml;
+        tprev = gprev = NAN;
+        it = -1;
+        continue;
+      }
+    }
     if (dtau > 0.5) /* the guess was far: a damped step */
       dtau = 0.5;
     else if (dtau < -0.5)

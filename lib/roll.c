@@ -38,9 +38,11 @@
  * non-negative there), and steps to the previous window's offset of the
  * adjusted theta from the ML one, or starts at that guess when it lies
  * far below, with the previous secant slope; its stopping rules ask for
- * small steps measured against the error of the adjusted score.  When
- * it falls back to the bracketing search, the bracket found is refined
- * by the same secant passes before false position.
+ * small steps measured against the error of the adjusted score; steps
+ * that a secant step in 1/theta sends into the flat tail (theta above
+ * 1e4) end it, a far start then decided by the adjusted score at the ML
+ * fit.  When it falls back to the bracketing search, the bracket found
+ * is refined by the same secant passes before false position.
  */
 #include "growth_internal.h"
 
