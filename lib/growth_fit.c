@@ -1230,13 +1230,29 @@ static int nb_beta_pre(const win_t *w, nbpar *p, int k, double *mu,
  * returns -1 and the caller alternates from the same start.  It stops
  * once the Newton decrement is below 1e-2 tol, after that last step.
  * mu is scratch of w->n doubles; last (if not NULL) gets the last pass
- * (ok set) when it converges. */
+ * (ok set) when it converges.
+ *
+ * With warm set (a rolling window's start, whose caller tries the cap
+ * when this returns -1 with theta above 1e5), two more cases are taken
+ * in hand.  Where the log-likelihood along beta_theta is not concave in
+ * tau (the Schur complement not positive), up to three steps of 1 in
+ * tau go the way of the profile score, beta moved along dbeta/dtau, as
+ * nb_theta's flat steps do (their decrement is not a convergence test).
+ * And in the flat tail of large theta, where dl/dtau tends to 0 as
+ * 1/theta and Newton steps in tau stay near 1, a step climbing above
+ * theta = e^5 is checked by Newton's step in u = 1/theta on theta
+ * dl/dtau (nearly linear in u there: A + B u + ...), which goes to
+ * tau - log1p(q), q = d/(d - s), d the profile score and -s its slope:
+ * past u = 0 (q <= -1) or above theta = 1e6, the fit is left to the
+ * cap at once (theta set to the cap, -1 returned) instead of after the
+ * steps up to log(cap) - 2. */
 static int nb_joint(const win_t *w, nbpar *p, double tol, double *mu,
-                    nblast *last) {
+                    nblast *last, int warm) {
   int nc = w->nc;
   const double taumax = log(TF_THETA_CAP) - 2.0;
   double tau = log(p->theta);
   double lam2prev = INFINITY, fprev = 0.0;
+  int nflat = 0;
   for (int it = 1; it <= 30; it++) {
     nbsums z;
     nb_kernel(w, p, NBK_BETA | NBK_C | NBK_I | NBK_S | NBK_DS, mu, &z);
@@ -1254,10 +1270,25 @@ static int nb_joint(const win_t *w, nbpar *p, double tol, double *mu,
       cc += cb[j] * z.C[j];
     }
     double scht = -(hh + cc);
+    double num = gt + ca;
+    /* not concave in tau: a flat step (above) */
+    int flat = warm && !(scht > 0.0) && nflat < 3 && isfinite(ua) &&
+               isfinite(num) && num != 0.0;
+    if (flat) {
+      nflat++;
+      scht = fabs(num);
+    }
     if (!(scht > 0.0) || !isfinite(ua) || !isfinite(gt))
       return -1;
-    double num = gt + ca;
     double dtau = num / scht;
+    if (warm && !flat && dtau > 0.5 && tau > 5.0) {
+      /* climbing the flat tail: Newton's step in u (above) */
+      double q = num / (num - scht);
+      if (!(q > -1.0) || tau - log1p(q) > log(1e6)) {
+        p->theta = TF_THETA_CAP;
+        return -1;
+      }
+    }
     double lam2 = ua + num * num / scht;
     double dr = ar + cr * dtau, db[7];
     /* damp long steps (theta is loosely determined in short windows) */
@@ -1286,6 +1317,12 @@ static int nb_joint(const win_t *w, nbpar *p, double tol, double *mu,
      * still far below 1e-2 tol) */
     int quad = f == 1.0 && fprev == 1.0 && lam2 < 1e-6 &&
                lam2 * lam2 * lam2 < 1e-11 * tol * lam2prev * lam2prev;
+    if (flat) {
+      /* no test of convergence, nor a quadratic regime, after it */
+      quad = 0;
+      lam2 = INFINITY;
+      f = 0.0;
+    }
     lam2prev = lam2;
     fprev = f;
     if ((lam2 < 1e-2 * tol && f == 1.0) || quad) {
@@ -2272,7 +2309,7 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
        * alternation, run up the flat tail, mostly ends there) */
       double last;
       (void)nb_beta_pre(&w, &np, 3, mu, &last);
-      done = nb_joint(&w, &np, o->tol, mu, &jl) == 0 && np.theta <= 1e5;
+      done = nb_joint(&w, &np, o->tol, mu, &jl, 1) == 0 && np.theta <= 1e5;
       if (!done && np.theta > 1e5) {
         np = np0;
         tocap = 1;
@@ -2306,7 +2343,7 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
            * and theta after the Newton steps of nb_theta, unless it ends
            * in the flat tail (theta above 1e5), where the alternation
            * settles whether the fit goes back to the cap */
-          done = nb_joint(&w, &np, o->tol, mu, &jl) == 0 &&
+          done = nb_joint(&w, &np, o->tol, mu, &jl, 1) == 0 &&
                  np.theta <= 1e5;
           np.iter += itb + 1;
         }
@@ -2329,7 +2366,7 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
      * them, so that single and rolling fits agree closely */
     if (!np.capped) {
       nbpar pj = np;
-      if (nb_joint(&w, &pj, o->tol, mu, NULL) == 0) {
+      if (nb_joint(&w, &pj, o->tol, mu, NULL, 0) == 0) {
         pj.iter += np.iter;
         np = pj;
       }
