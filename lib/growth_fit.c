@@ -486,7 +486,8 @@ NB_INLINE void nb_kernel_n(const win_t *w, const nbpar *p, unsigned f,
   nbth c;
   if (f & NBK_S)
     nbth_init(&c, th, (f & NBK_DS) != 0);
-  memset(z, 0, sizeof *z);
+  if (nc != 7)
+    memset(z, 0, sizeof *z); /* with seven classes every sum is set below */
   ksum S = {0, 0}, D = {0, 0}, L = {0, 0};
   size_t step = nc == 7 ? 7 : 1;
   double e = w->off ? 0.0 : exp(p->r * (double)step);
