@@ -1370,8 +1370,10 @@ static int nb_joint(const win_t *w, nbpar *p, double tol, double *mu,
  * caller then uses cr_theta.
  *
  * The flat tail is recognised before the steps, damped to 0.5, climb
- * into it.  For large theta the adjusted score behaves as theta g =
- * A + B/theta + ..., so that theta g is nearly linear in u = 1/theta;
+ * into it.  For large theta the Cox-Reid adjusted score (Cox & Reid
+ * 1987, JRSS B 49:1-39) behaves as theta g = A + B/theta + ... (both the
+ * theta score and the derivative of the log determinant fall as
+ * 1/theta), so that theta g is nearly linear in u = 1/theta;
  * the secant step in u (slope dg/dtau = sl, at g) goes to u (1 + g/(g +
  * sl)), that is to tau - log1p(g / (g + sl)), or past u = 0 (no root
  * below the cap) when g / (g + sl) <= -1.  A step climbing from above
