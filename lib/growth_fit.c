@@ -486,7 +486,8 @@ NB_INLINE void nb_kernel_n(const win_t *w, const nbpar *p, unsigned f,
   nbth c;
   if (f & NBK_S)
     nbth_init(&c, th, (f & NBK_DS) != 0);
-  memset(z, 0, sizeof *z);
+  if (nc != 7)
+    memset(z, 0, sizeof *z); /* with seven classes every sum is set below */
   ksum S = {0, 0}, D = {0, 0}, L = {0, 0};
   size_t step = nc == 7 ? 7 : 1;
   double e = w->off ? 0.0 : exp(p->r * (double)step);
@@ -1230,13 +1231,29 @@ static int nb_beta_pre(const win_t *w, nbpar *p, int k, double *mu,
  * returns -1 and the caller alternates from the same start.  It stops
  * once the Newton decrement is below 1e-2 tol, after that last step.
  * mu is scratch of w->n doubles; last (if not NULL) gets the last pass
- * (ok set) when it converges. */
+ * (ok set) when it converges.
+ *
+ * With warm set (a rolling window's start, whose caller tries the cap
+ * when this returns -1 with theta above 1e5), two more cases are taken
+ * in hand.  Where the log-likelihood along beta_theta is not concave in
+ * tau (the Schur complement not positive), up to three steps of 1 in
+ * tau go the way of the profile score, beta moved along dbeta/dtau, as
+ * nb_theta's flat steps do (their decrement is not a convergence test).
+ * And in the flat tail of large theta, where dl/dtau tends to 0 as
+ * 1/theta and Newton steps in tau stay near 1, a step climbing above
+ * theta = e^5 is checked by Newton's step in u = 1/theta on theta
+ * dl/dtau (nearly linear in u there: A + B u + ...), which goes to
+ * tau - log1p(q), q = d/(d - s), d the profile score and -s its slope:
+ * past u = 0 (q <= -1) or above theta = 1e6, the fit is left to the
+ * cap at once (theta set to the cap, -1 returned) instead of after the
+ * steps up to log(cap) - 2. */
 static int nb_joint(const win_t *w, nbpar *p, double tol, double *mu,
-                    nblast *last) {
+                    nblast *last, int warm) {
   int nc = w->nc;
   const double taumax = log(TF_THETA_CAP) - 2.0;
   double tau = log(p->theta);
   double lam2prev = INFINITY, fprev = 0.0;
+  int nflat = 0;
   for (int it = 1; it <= 30; it++) {
     nbsums z;
     nb_kernel(w, p, NBK_BETA | NBK_C | NBK_I | NBK_S | NBK_DS, mu, &z);
@@ -1254,10 +1271,25 @@ static int nb_joint(const win_t *w, nbpar *p, double tol, double *mu,
       cc += cb[j] * z.C[j];
     }
     double scht = -(hh + cc);
+    double num = gt + ca;
+    /* not concave in tau: a flat step (above) */
+    int flat = warm && !(scht > 0.0) && nflat < 3 && isfinite(ua) &&
+               isfinite(num) && num != 0.0;
+    if (flat) {
+      nflat++;
+      scht = fabs(num);
+    }
     if (!(scht > 0.0) || !isfinite(ua) || !isfinite(gt))
       return -1;
-    double num = gt + ca;
     double dtau = num / scht;
+    if (warm && !flat && dtau > 0.5 && tau > 5.0) {
+      /* climbing the flat tail: Newton's step in u (above) */
+      double q = num / (num - scht);
+      if (!(q > -1.0) || tau - log1p(q) > log(1e6)) {
+        p->theta = TF_THETA_CAP;
+        return -1;
+      }
+    }
     double lam2 = ua + num * num / scht;
     double dr = ar + cr * dtau, db[7];
     /* damp long steps (theta is loosely determined in short windows) */
@@ -1286,6 +1318,12 @@ static int nb_joint(const win_t *w, nbpar *p, double tol, double *mu,
      * still far below 1e-2 tol) */
     int quad = f == 1.0 && fprev == 1.0 && lam2 < 1e-6 &&
                lam2 * lam2 * lam2 < 1e-11 * tol * lam2prev * lam2prev;
+    if (flat) {
+      /* no test of convergence, nor a quadratic regime, after it */
+      quad = 0;
+      lam2 = INFINITY;
+      f = 0.0;
+    }
     lam2prev = lam2;
     fprev = f;
     if ((lam2 < 1e-2 * tol && f == 1.0) || quad) {
@@ -1329,7 +1367,22 @@ static int nb_joint(const win_t *w, nbpar *p, double tol, double *mu,
  * theta; *slope the last secant slope.  Returns the adjusted theta, or
  * NAN when it does not converge in 30 passes, a step is wild, theta
  * goes above 1e4 (the flat tail) or tau leaves (tml - 20, tml): the
- * caller then uses cr_theta. */
+ * caller then uses cr_theta.
+ *
+ * The flat tail is recognised before the steps, damped to 0.5, climb
+ * into it.  For large theta the Cox-Reid adjusted score (Cox & Reid
+ * 1987, JRSS B 49:1-39) behaves as theta g = A + B/theta + ... (both the
+ * theta score and the derivative of the log determinant fall as
+ * 1/theta), so that theta g is nearly linear in u = 1/theta;
+ * the secant step in u (slope dg/dtau = sl, at g) goes to u (1 + g/(g +
+ * sl)), that is to tau - log1p(g / (g + sl)), or past u = 0 (no root
+ * below the cap) when g / (g + sl) <= -1.  A step climbing from above
+ * theta = e^6 that this predicts beyond 1e4 ends the passes: started
+ * next to the ML fit (whose adjusted score was negative) at once, the
+ * root then lying in the flat tail; started from a far guess, by one
+ * pass at the ML fit itself, which decides as pass 0 does (a
+ * non-negative score there: the ML theta, as cr_theta would find it
+ * first), and otherwise leaves the tail to cr_theta. */
 static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
                       double slope0, double tol, const nblast *last,
                       double *mu, double *se, double *slope) {
@@ -1343,6 +1396,8 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
   /* without a previous slope, -1 (about its size in short windows) */
   double sl = slope0 < 0.0 && isfinite(slope0) ? slope0 : -1.0;
   int own = 0; /* a secant slope of this window seen */
+  int tail = 0; /* the flat tail predicted: pass 0 at the ML fit decides */
+  const double tmax = log(1e4);
   q.theta = exp(tau);
   if (far)
     last = NULL;
@@ -1380,6 +1435,8 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
       dtau = -g / sl;
     } else if (it == 0) {
       /* at the ML fit, beta = beta_theta: the adjusted score there */
+      if (tail && g < 0.0)
+        return NAN; /* a root in the flat tail */
       if (g >= 0.0 && last) {
         /* decided at the ML fit itself: pass 0 again, there */
         last = NULL;
@@ -1412,6 +1469,22 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
     egprev = eg;
     if (tf_isnan(dtau))
       return NAN;
+    if (dtau > 0.5 && tau > 6.0) {
+      /* climbing: the secant step in u = 1/theta (above) */
+      double rq = g / (g + sl);
+      if (!(rq > -1.0) || tau - log1p(rq) > tmax) {
+        if (!far)
+          return NAN;
+        tail = 1;
+        far = 0;
+        last = NULL;
+        q = *p;
+        tau = tml;
+        tprev = gprev = NAN;
+        it = -1;
+        continue;
+      }
+    }
     if (dtau > 0.5) /* the guess was far: a damped step */
       dtau = 0.5;
     else if (dtau < -0.5)
@@ -2239,7 +2312,7 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
        * alternation, run up the flat tail, mostly ends there) */
       double last;
       (void)nb_beta_pre(&w, &np, 3, mu, &last);
-      done = nb_joint(&w, &np, o->tol, mu, &jl) == 0 && np.theta <= 1e5;
+      done = nb_joint(&w, &np, o->tol, mu, &jl, 1) == 0 && np.theta <= 1e5;
       if (!done && np.theta > 1e5) {
         np = np0;
         tocap = 1;
@@ -2273,7 +2346,7 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
            * and theta after the Newton steps of nb_theta, unless it ends
            * in the flat tail (theta above 1e5), where the alternation
            * settles whether the fit goes back to the cap */
-          done = nb_joint(&w, &np, o->tol, mu, &jl) == 0 &&
+          done = nb_joint(&w, &np, o->tol, mu, &jl, 1) == 0 &&
                  np.theta <= 1e5;
           np.iter += itb + 1;
         }
@@ -2296,7 +2369,7 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
      * them, so that single and rolling fits agree closely */
     if (!np.capped) {
       nbpar pj = np;
-      if (nb_joint(&w, &pj, o->tol, mu, NULL) == 0) {
+      if (nb_joint(&w, &pj, o->tol, mu, NULL, 0) == 0) {
         pj.iter += np.iter;
         np = pj;
       }

@@ -32,15 +32,19 @@
  * theta, then the joint Newton (or, theta at its cap, beta at the cap,
  * where a series of the theta score in 1/theta settles most windows
  * without a logarithm per day) runs; a joint fit that runs into the flat
- * tail tries the cap before the alternation.  The Cox-Reid search for
+ * tail (foreseen by a Newton step in 1/theta) tries the cap before the
+ * alternation, and one that meets a likelihood not concave in log theta
+ * takes a few unit steps up its slope first.  The Cox-Reid search for
  * the small-sample interval starts next to the ML fit, at the joint
  * fit's last pass (ending at the ML fit when the adjusted score is
  * non-negative there), and steps to the previous window's offset of the
  * adjusted theta from the ML one, or starts at that guess when it lies
  * far below, with the previous secant slope; its stopping rules ask for
- * small steps measured against the error of the adjusted score.  When
- * it falls back to the bracketing search, the bracket found is refined
- * by the same secant passes before false position.
+ * small steps measured against the error of the adjusted score; steps
+ * that a secant step in 1/theta sends into the flat tail (theta above
+ * 1e4) end it, a far start then decided by the adjusted score at the ML
+ * fit.  When it falls back to the bracketing search, the bracket found
+ * is refined by the same secant passes before false position.
  */
 #include "growth_internal.h"
 

@@ -530,7 +530,10 @@ END_TEST
 
 /* NB2 rolling fits take several warm-started paths (joint Newton; theta
  * at its cap; the Cox-Reid search from the ML fit, from a far guess, or
- * ended at once when the adjusted score is non-negative at the ML fit):
+ * ended at once when the adjusted score is non-negative at the ML fit,
+ * or, from a far guess climbing into the flat tail, decided at the ML
+ * fit: a window whose adjusted theta is the capped ML value right after
+ * one whose adjusted theta lay far below):
  * a 240-day series whose first half is overdispersed (a deterministic
  * multiplicative wiggle, no source) and whose second half follows a
  * smooth curve with small counts (ML theta at the cap), every window
@@ -559,6 +562,7 @@ static void roll_nb_paths(int kind, int align, size_t w) {
   twofold_fit *f;
   ck_assert_int_eq(twofold_fit_new(&f), 0);
   int capped = 0, free_theta = 0, cr_at_ml = 0, cr_below = 0, far = 0;
+  int far_to_cap = 0, prev_far = 0;
   for (size_t i = 0; i < N; i++) {
     long s = align == TWOFOLD_ALIGN_TRAILING ? (long)i - (long)w + 1
                                               : (long)i - (long)((w - 1) / 2);
@@ -589,14 +593,19 @@ static void roll_nb_paths(int kind, int align, size_t w) {
       cr_below++;
     if (ta < 1e-3 * th) /* far below the ML value (at its cap) */
       far++;
+    if (prev_far && ta == th &&
+        (twofold_fit_flags(f) & TWOFOLD_FIT_THETA_CAPPED))
+      far_to_cap++;
+    prev_far = ta < 1e-3 * th;
   }
   ck_assert_msg(capped > 5 && free_theta > 5,
                 "capped %d, free %d windows", capped, free_theta);
   if (kind == TWOFOLD_INTERVAL_DEFAULT)
-    ck_assert_msg(cr_at_ml > 2 && cr_below > 5 && far > 5,
+    ck_assert_msg(cr_at_ml > 2 && cr_below > 5 && far > 5 &&
+                      far_to_cap > 0,
                   "adjusted theta at the ML value %d, below %d, far below "
-                  "%d",
-                  cr_at_ml, cr_below, far);
+                  "%d, back at the cap after far below %d",
+                  cr_at_ml, cr_below, far, far_to_cap);
   twofold_fit_free(f);
   twofold_fit_options_free(o);
 }
