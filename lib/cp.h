@@ -14,7 +14,8 @@
  * sums whose terms come in independent pairs: each lane does the same
  * operations in the same order as scalar code would, so the results are
  * the same to the bit (x86-64 adds and multiplies pairs with SSE2, which
- * every such processor has; no fused multiply-add is formed). */
+ * every such processor has, and in ISO C mode, -std=c11, GCC forms no
+ * fused multiply-add from them). */
 typedef double tf_v2d __attribute__((vector_size(2 * sizeof(double))));
 static inline tf_v2d tf_v2d_load(const double *p) {
   tf_v2d v;
@@ -338,7 +339,6 @@ static inline double tf_lse_array(const double *x, size_t n) {
   return m + log(s);
 }
 
-
 /* Whether every argument is finite: x - x is 0 for a finite x and NaN for
  * an infinite or NaN one (a few subtractions and one comparison, where
  * isfinite costs a mask and a comparison each). */
@@ -348,7 +348,6 @@ static inline int tf_finite2(double a, double b) {
 static inline int tf_finite4(double a, double b, double c, double d) {
   return ((a - a) + (b - b)) + ((c - c) + (d - d)) == 0;
 }
-
 
 static inline double tf_lse(double a, double b) {
   if (a == -INFINITY)

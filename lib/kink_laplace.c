@@ -43,9 +43,12 @@
  * closed forms.  e^a comes from an exact e^{a0} by a short series while
  * |a - a0| <= 0.02.  The forward sums over the starts take one exp per
  * candidate (the filtered weights against their largest; the
- * new-segment weights are these times the tabled hazard), the backward
- * sum one exp per cached segment.  With these P(s, e) the posterior is that of independent
- * segments, so the exact forward, backward, count, most-probable and
+ * new-segment weights are these times the tabled hazard); the pass keeps
+ * these weights, so that the backward pass is one in probabilities,
+ * without an exp (tf_kinkl_run).  The fit's usual path (the warm start,
+ * one evaluation, converged) is inline; the rest (further Newton steps,
+ * the retry, the fallback) is kl_rest.  With these P(s, e) the posterior
+ * is that of independent segments, so the count, most-probable and
  * sampling recursions of the JUMP and LEVEL kinds are reused unchanged.
  *
  * The approximations, both measured in tests/check_changes.c against

@@ -44,26 +44,18 @@ static SEXP status_code(int code) { return status_list(code, NULL, 0, 0); }
 
 /* ---- external pointers for library handles --------------------------- */
 
-static void fin_set(SEXP p) {
-  twofold_set_free((twofold_set *)R_ExternalPtrAddr(p));
-  R_ClearExternalPtr(p);
-}
-static void fin_fit(SEXP p) {
-  twofold_fit_free((twofold_fit *)R_ExternalPtrAddr(p));
-  R_ClearExternalPtr(p);
-}
-static void fin_opts(SEXP p) {
-  twofold_fit_options_free((twofold_fit_options *)R_ExternalPtrAddr(p));
-  R_ClearExternalPtr(p);
-}
-static void fin_ropts(SEXP p) {
-  twofold_read_options_free((twofold_read_options *)R_ExternalPtrAddr(p));
-  R_ClearExternalPtr(p);
-}
-static void fin_gi(SEXP p) {
-  twofold_gi_free((twofold_gi *)R_ExternalPtrAddr(p));
-  R_ClearExternalPtr(p);
-}
+/* A finalizer for handles of type T: FREE on the address, then cleared
+ * (so a second call, or release() before the collector, is harmless). */
+#define FINALIZER(NAME, T, FREE)                                               \
+  static void NAME(SEXP p) {                                                   \
+    FREE((T *)R_ExternalPtrAddr(p));                                           \
+    R_ClearExternalPtr(p);                                                     \
+  }
+FINALIZER(fin_set, twofold_set, twofold_set_free)
+FINALIZER(fin_fit, twofold_fit, twofold_fit_free)
+FINALIZER(fin_opts, twofold_fit_options, twofold_fit_options_free)
+FINALIZER(fin_ropts, twofold_read_options, twofold_read_options_free)
+FINALIZER(fin_gi, twofold_gi, twofold_gi_free)
 
 /* An external pointer holding NULL for now, with finalizer fin; the
  * handle is stored with R_SetExternalPtrAddr right after creation. */
@@ -540,14 +532,8 @@ static SEXP tfr_reproduction(SEXP r, SEXP lo, SEXP hi, SEXP mean, SEXP sd,
 
 /* ---- changepoints ---------------------------------------------------- */
 
-static void fin_cpopts(SEXP p) {
-  twofold_cp_options_free((twofold_cp_options *)R_ExternalPtrAddr(p));
-  R_ClearExternalPtr(p);
-}
-static void fin_changes(SEXP p) {
-  twofold_changes_free((twofold_changes *)R_ExternalPtrAddr(p));
-  R_ClearExternalPtr(p);
-}
+FINALIZER(fin_cpopts, twofold_cp_options, twofold_cp_options_free)
+FINALIZER(fin_changes, twofold_changes, twofold_changes_free)
 
 static SEXP real_vec(R_xlen_t n) { return Rf_allocVector(REALSXP, n); }
 
@@ -726,10 +712,7 @@ static SEXP tfr_changes(SEXP y, SEXP first_weekday, SEXP opts) {
  * finalizer; the R object (class "twofold_online") refers to it, so
  * adding days changes the filter in place.  A pointer restored from a
  * saved workspace holds NULL and is rejected. */
-static void fin_online(SEXP p) {
-  twofold_online_free((twofold_online *)R_ExternalPtrAddr(p));
-  R_ClearExternalPtr(p);
-}
+FINALIZER(fin_online, twofold_online, twofold_online_free)
 
 static twofold_online *online_get(SEXP p) {
   if (TYPEOF(p) != EXTPTRSXP || R_ExternalPtrTag(p) != Rf_install("twofold_online"))
