@@ -2,14 +2,16 @@
 /*
  * bench-cp - changepoint figures on the benchmark districts.
  *
- *   bench-cp [--seconds S]
+ *   bench-cp [--seconds S | --series N] [--part PART] [--no-kink]
  *
  * Cases of the benchmark districts (benchgen.c, 730 days each), default
  * changepoint options unless said otherwise, one thread:
  *  - offline: twofold_changes_run per 730-day series, for the default kind
  *    (kink) and for jump and level segments, over successive districts
- *    until about S CPU seconds (default 2) per kind: mean and largest
- *    milliseconds per series (CPU time of this thread and wall time);
+ *    until about S CPU seconds (default 2) per kind, or over the first N
+ *    districts with --series N (the same work in every run, to compare two
+ *    builds): mean and largest milliseconds per series (CPU time of this
+ *    thread and wall time);
  *  - online: twofold_online_new (jump, then kink segments, the first 365 days as
  *    history, 100 candidates, seed 1) then twofold_online_add for each of
  *    the other 365 days, on up to 200 districts: microseconds per add;
@@ -39,13 +41,14 @@
 static double y[N];
 
 static int offline(twofold_changes *ch, twofold_cp_options *o, int kind,
-                   double seconds) {
+                   double seconds, size_t nseries) {
   const char *name = twofold_cp_kind_to_string(kind);
   if (twofold_cp_options_set_kind(o, kind) != 0)
     return 1;
   double cpu = 0, wall = 0, worst = 0;
   size_t runs = 0;
-  for (size_t i = 0; i < BENCHGEN_REGIONS && cpu < seconds; i++) {
+  for (size_t i = 0;
+       i < BENCHGEN_REGIONS && (nseries ? i < nseries : cpu < seconds); i++) {
     if (benchgen_region(i, N, y, NULL) != 0)
       return 1;
     double c0 = bench_clock(CLOCK_THREAD_CPUTIME_ID);
@@ -197,6 +200,7 @@ static int pruning(twofold_changes *ch, twofold_cp_options *o, int kind) {
 
 int main(int argc, char **argv) {
   double seconds = 2.0;
+  size_t nseries = 0;
   const char *part = "all";
   int kink_prune = 1;
   for (int i = 1; i < argc; i++) {
@@ -206,6 +210,13 @@ int main(int argc, char **argv) {
         fputs("bench-cp: --seconds wants (0, 600]\n", stderr);
         return 2;
       }
+    } else if (strcmp(argv[i], "--series") == 0 && i + 1 < argc) {
+      long v = atol(argv[++i]);
+      if (v < 1 || v > BENCHGEN_REGIONS) {
+        fprintf(stderr, "bench-cp: --series wants 1..%d\n", BENCHGEN_REGIONS);
+        return 2;
+      }
+      nseries = (size_t)v;
     } else if (strcmp(argv[i], "--no-kink") == 0) {
       kink_prune = 0;
     } else if (strcmp(argv[i], "--part") == 0 && i + 1 < argc) {
@@ -217,8 +228,8 @@ int main(int argc, char **argv) {
         return 2;
       }
     } else {
-      fputs("usage: bench-cp [--seconds S] [--part offline|online|prune|all]"
-            " [--no-kink]\n",
+      fputs("usage: bench-cp [--seconds S | --series N] "
+            "[--part offline|online|prune|all] [--no-kink]\n",
             stderr);
       return 2;
     }
@@ -235,7 +246,7 @@ int main(int argc, char **argv) {
   rc = 0;
   if (all || strcmp(part, "offline") == 0)
     for (int k = 0; k < 3; k++)
-      rc |= offline(ch, o, kinds[k], seconds);
+      rc |= offline(ch, o, kinds[k], seconds, nseries);
   if (all || strcmp(part, "online") == 0)
     rc = rc | online(o, TWOFOLD_CP_JUMP) | online(o, TWOFOLD_CP_KINK);
   if (all || strcmp(part, "prune") == 0)

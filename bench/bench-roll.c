@@ -2,7 +2,7 @@
 /*
  * bench-roll - rolling 21-day growth fits per second on one core.
  *
- *   bench-roll [--seconds S] [--window W]
+ *   bench-roll [--seconds S | --series N] [--window W]
  *
  * For the Poisson and the negative binomial model, each with the default
  * interval and with the Wald interval (default fit options otherwise:
@@ -10,7 +10,8 @@
  * twofold_growth_roll on the cases of the benchmark districts (benchgen.c,
  * 730 days each), one district after the other on one thread, until about
  * S CPU seconds (default 2) per variant have been spent or all 10,000 districts are
- * done.  A series of n days holds n - W + 1 whole windows; windows per
+ * done; with --series N, the first N districts whatever the time (the
+ * same work in every run, to compare two builds).  A series of n days holds n - W + 1 whole windows; windows per
  * second is their number over the time spent in twofold_growth_roll, per
  * CPU second of this thread (CLOCK_THREAD_CPUTIME_ID) and per wall second
  * (CLOCK_MONOTONIC).  Making the series is not timed.  Prints figures,
@@ -26,7 +27,7 @@
 #include <string.h>
 
 static int run_model(int model, int interval, const char *key,
-                     double seconds, size_t w) {
+                     double seconds, size_t nseries, size_t w) {
   const size_t n = BENCHGEN_DAYS;
   twofold_fit_options *o = NULL;
   double *y = malloc(n * sizeof *y), *rate = malloc(n * sizeof *rate);
@@ -42,7 +43,8 @@ static int run_model(int model, int interval, const char *key,
   }
   double cpu = 0, wall = 0, windows = 0, failed = 0;
   size_t series = 0;
-  for (size_t i = 0; i < BENCHGEN_REGIONS && cpu < seconds; i++) {
+  for (size_t i = 0;
+       i < BENCHGEN_REGIONS && (nseries ? i < nseries : cpu < seconds); i++) {
     if (benchgen_region(i, n, y, NULL) != 0) {
       fputs("bench-roll: out of memory\n", stderr);
       goto done;
@@ -98,7 +100,7 @@ done:
 
 int main(int argc, char **argv) {
   double seconds = 2.0;
-  size_t w = 21;
+  size_t w = 21, nseries = 0;
   for (int i = 1; i < argc; i++) {
     if (strcmp(argv[i], "--seconds") == 0 && i + 1 < argc) {
       seconds = atof(argv[++i]);
@@ -106,6 +108,14 @@ int main(int argc, char **argv) {
         fputs("bench-roll: --seconds wants (0, 600]\n", stderr);
         return 2;
       }
+    } else if (strcmp(argv[i], "--series") == 0 && i + 1 < argc) {
+      long v = atol(argv[++i]);
+      if (v < 1 || v > BENCHGEN_REGIONS) {
+        fprintf(stderr, "bench-roll: --series wants 1..%d\n",
+                BENCHGEN_REGIONS);
+        return 2;
+      }
+      nseries = (size_t)v;
     } else if (strcmp(argv[i], "--window") == 0 && i + 1 < argc) {
       long v = atol(argv[++i]);
       if (v < 2 || v > 365) {
@@ -114,17 +124,18 @@ int main(int argc, char **argv) {
       }
       w = (size_t)v;
     } else {
-      fputs("usage: bench-roll [--seconds S] [--window W]\n", stderr);
+      fputs("usage: bench-roll [--seconds S | --series N] [--window W]\n",
+            stderr);
       return 2;
     }
   }
   int rc = run_model(TWOFOLD_MODEL_POISSON, TWOFOLD_INTERVAL_DEFAULT,
-                     "poisson", seconds, w);
+                     "poisson", seconds, nseries, w);
   rc |= run_model(TWOFOLD_MODEL_POISSON, TWOFOLD_INTERVAL_WALD,
-                  "poisson-wald", seconds, w);
+                  "poisson-wald", seconds, nseries, w);
   rc |= run_model(TWOFOLD_MODEL_NEGBIN, TWOFOLD_INTERVAL_DEFAULT, "negbin",
-                  seconds, w);
+                  seconds, nseries, w);
   rc |= run_model(TWOFOLD_MODEL_NEGBIN, TWOFOLD_INTERVAL_WALD, "negbin-wald",
-                  seconds, w);
+                  seconds, nseries, w);
   return rc;
 }
