@@ -273,8 +273,11 @@ int bk_read(const bk_input *in, char **files, size_t nfiles,
   return st;
 }
 
-static int resolve_column(const bk_input *in, const twofold_series *s,
-                          bk_target *t) {
+/* tf_cli_resolve_fn: ctx the input options, element a bk_target. */
+static int resolve_column(const void *ctx, const twofold_series *s,
+                          void *element) {
+  const bk_input *in = ctx;
+  bk_target *t = element;
   t->s = s;
   t->col = 0;
   if (in->io.count != NULL)
@@ -284,31 +287,12 @@ static int resolve_column(const bk_input *in, const twofold_series *s,
 
 int bk_select_targets(const bk_input *in, const twofold_set *set,
                       twofold_series **total, bk_target **out, size_t *n) {
-  const twofold_series **list = NULL;
-  size_t m = 0;
-  *out = NULL;
-  *n = 0;
-  int st =
-      tf_cli_select_series(set, BK_TOTAL_LABEL, in->io.regions,
-                           in->io.nregions, in->io.no_total, total, &list, &m);
-  if (st != TF_EXIT_OK)
-    return st;
-  bk_target *t = calloc(m ? m : 1, sizeof *t);
-  if (t == NULL) {
-    free(list);
-    tf_cli_msg("out of memory");
-    return TF_EXIT_OUTPUT;
-  }
-  for (size_t i = 0; i < m && st == TF_EXIT_OK; i++)
-    st = resolve_column(in, list[i], &t[i]);
-  free(list);
-  if (st != TF_EXIT_OK) {
-    free(t);
-    return st;
-  }
+  void *t = NULL;
+  int st = tf_cli_targets(set, BK_TOTAL_LABEL, in->io.regions,
+                          in->io.nregions, in->io.no_total, total,
+                          sizeof(bk_target), resolve_column, in, &t, n);
   *out = t;
-  *n = m;
-  return TF_EXIT_OK;
+  return st;
 }
 
 void bk_fit_free(bk_fit *f) {

@@ -377,6 +377,37 @@ int tf_cli_select_series(const twofold_set *set, const char *label,
   return TF_EXIT_OK;
 }
 
+int tf_cli_targets(const twofold_set *set, const char *label,
+                   const char *const *regions, size_t nregions, int no_total,
+                   twofold_series **total, size_t elem_size,
+                   tf_cli_resolve_fn resolve, const void *ctx, void **out,
+                   size_t *n) {
+  const twofold_series **list = NULL;
+  size_t m = 0;
+  *out = NULL;
+  *n = 0;
+  int st = tf_cli_select_series(set, label, regions, nregions, no_total,
+                                total, &list, &m);
+  if (st != TF_EXIT_OK)
+    return st;
+  unsigned char *t = calloc(m ? m : 1, elem_size);
+  if (t == NULL) {
+    free(list);
+    tf_cli_msg("out of memory");
+    return TF_EXIT_OUTPUT;
+  }
+  for (size_t i = 0; i < m && st == TF_EXIT_OK; i++)
+    st = resolve(ctx, list[i], t + i * elem_size);
+  free(list);
+  if (st != TF_EXIT_OK) {
+    free(t);
+    return st;
+  }
+  *out = t;
+  *n = m;
+  return TF_EXIT_OK;
+}
+
 /* ------------------------------------------------------------------ */
 /* Cells                                                               */
 /* ------------------------------------------------------------------ */
@@ -395,6 +426,10 @@ tf_cell tf_cell_str(const char *s) {
     c.s = s;
   }
   return c;
+}
+
+tf_cell tf_cell_sense(int sense) {
+  return tf_cell_str(sense > 0 ? "doubling" : sense < 0 ? "halving" : NULL);
 }
 
 tf_cell tf_cell_int(long long i) {

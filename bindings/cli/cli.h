@@ -163,6 +163,19 @@ int tf_cli_select_series(const twofold_set *set, const char *label,
                          int no_total, twofold_series **total,
                          const twofold_series ***out, size_t *n);
 
+/* The targets of a command: the series of tf_cli_select_series, each
+ * turned into an element of elem_size bytes (zeroed first) by
+ * resolve(ctx, series, element), which returns TF_EXIT_OK or an exit
+ * status after a message.  *out gets the array of the *n elements (the
+ * caller frees it), *total as tf_cli_select_series. */
+typedef int (*tf_cli_resolve_fn)(const void *ctx, const twofold_series *s,
+                                 void *element);
+int tf_cli_targets(const twofold_set *set, const char *label,
+                   const char *const *regions, size_t nregions, int no_total,
+                   twofold_series **total, size_t elem_size,
+                   tf_cli_resolve_fn resolve, const void *ctx, void **out,
+                   size_t *n);
+
 /* ------------------------------------------------------------------ */
 /* Records: tables, TSV, CSV, JSON Lines                               */
 /* ------------------------------------------------------------------ */
@@ -205,6 +218,9 @@ typedef struct tf_cell {
 /* Cell constructors. */
 tf_cell tf_cell_null(void);
 tf_cell tf_cell_str(const char *s); /* NULL gives a null cell */
+/* "doubling" for sense > 0, "halving" for sense < 0, a null cell for 0 (no
+ * finite time: the rate is 0 or unknown) */
+tf_cell tf_cell_sense(int sense);
 tf_cell tf_cell_int(long long i);
 tf_cell tf_cell_dbl(double d, int prec);
 tf_cell tf_cell_dbl_signed(double d, int prec); /* with a '+' */

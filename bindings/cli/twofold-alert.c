@@ -469,9 +469,7 @@ static int write_json(tf_writer *w, const bk_fit *f, const verdict *v) {
   c[n++] = tf_cell_dbl(100 * v->after, -1);
   c[n++] = tf_cell_dbl(100 * v->after_lo, -1);
   c[n++] = tf_cell_dbl(100 * v->after_hi, -1);
-  c[n++] = tf_cell_str(v->sense > 0 ? "doubling"
-                       : v->sense < 0 ? "halving"
-                                      : NULL);
+  c[n++] = tf_cell_sense(v->sense);
   c[n++] = tf_cell_dbl(v->dt, -1);
   c[n++] = tf_cell_dbl(v->dt_lo, -1);
   c[n++] = tf_cell_dbl(v->dt_hi, -1);

@@ -293,10 +293,6 @@ static int write_changes(const options *o, tf_writer *w, const bk_fit *f) {
   return 0;
 }
 
-static const char *sense_name(int sense) {
-  return sense > 0 ? "doubling" : sense < 0 ? "halving" : NULL;
-}
-
 /* The per-day records of one target. */
 static int write_daily(const options *o, tf_writer *w, const bk_fit *f) {
   const bk_target *t = f->t;
@@ -334,7 +330,7 @@ static int write_daily(const options *o, tf_writer *w, const bk_fit *f) {
       c[n++] = tf_cell_dbl(100 * f->g[i], -1);
       c[n++] = tf_cell_dbl(100 * f->glo[i], -1);
       c[n++] = tf_cell_dbl(100 * f->ghi[i], -1);
-      c[n++] = tf_cell_str(sense_name(f->sense[i]));
+      c[n++] = tf_cell_sense(f->sense[i]);
       c[n++] = tf_cell_dbl(f->sense[i] ? f->dt[i] : NAN, -1);
       c[n++] = tf_cell_dbl(f->sense[i] ? f->dtlo[i] : NAN, -1);
       c[n++] = tf_cell_dbl(f->sense[i] ? f->dthi[i] : NAN, -1);

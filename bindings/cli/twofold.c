@@ -264,9 +264,12 @@ typedef struct target {
   const struct early_job *pre; /* estimated while reading, or NULL      */
 } target;
 
-/* Find the count and offset columns of s; TF_EXIT_DATA if absent. */
-static int resolve_columns(const options *o, const twofold_series *s,
-                           target *t) {
+/* Find the count and offset columns of s; TF_EXIT_DATA if absent
+ * (tf_cli_resolve_fn: ctx the options, element a target). */
+static int resolve_columns(const void *ctx, const twofold_series *s,
+                           void *element) {
+  const options *o = ctx;
+  target *t = element;
   t->s = s;
   t->col = 0;
   t->ocol = -1;
@@ -282,35 +285,16 @@ static int resolve_columns(const options *o, const twofold_series *s,
   return st;
 }
 
-/* Build the list of targets (tf_cli_select_series); *total receives the
- * total series to free. */
+/* Build the list of targets (tf_cli_targets); *total receives the total
+ * series to free. */
 static int select_targets(const options *o, const twofold_set *set,
                           twofold_series **total, target **out, size_t *n) {
-  const twofold_series **list = NULL;
-  size_t m = 0;
-  *out = NULL;
-  *n = 0;
-  int st =
-      tf_cli_select_series(set, TOTAL_LABEL, o->in.regions, o->in.nregions,
-                           o->in.no_total, total, &list, &m);
-  if (st != TF_EXIT_OK)
-    return st;
-  target *t = calloc(m ? m : 1, sizeof *t);
-  if (t == NULL) {
-    free(list);
-    tf_cli_msg("out of memory");
-    return TF_EXIT_OUTPUT;
-  }
-  for (size_t i = 0; i < m && st == TF_EXIT_OK; i++)
-    st = resolve_columns(o, list[i], &t[i]);
-  free(list);
-  if (st != TF_EXIT_OK) {
-    free(t);
-    return st;
-  }
+  void *t = NULL;
+  int st = tf_cli_targets(set, TOTAL_LABEL, o->in.regions, o->in.nregions,
+                          o->in.no_total, total, sizeof(target),
+                          resolve_columns, o, &t, n);
   *out = t;
-  *n = m;
-  return TF_EXIT_OK;
+  return st;
 }
 
 /* ------------------------------------------------------------------ */
@@ -573,9 +557,7 @@ static int write_estimate(const options *o, tf_writer *w, const target *t,
   c[n++] = tf_cell_dbl(100 * e->r, -1);
   c[n++] = tf_cell_dbl(100 * e->lo, -1);
   c[n++] = tf_cell_dbl(100 * e->hi, -1);
-  c[n++] = tf_cell_str(e->sense > 0 ? "doubling"
-                       : e->sense < 0 ? "halving"
-                                      : NULL);
+  c[n++] = tf_cell_sense(e->sense);
   c[n++] = tf_cell_dbl(e->t, -1);
   c[n++] = tf_cell_dbl(e->t_lo, -1);
   c[n++] = tf_cell_dbl(e->t_hi, -1);
