@@ -1003,43 +1003,15 @@ int twofold_changes_growth(const twofold_changes *ch, double *mean,
   return 0;
 }
 
-/* The doubling-time convention of twofold_doubling_time() (see the header):
- * sense +1/-1/0, ln 2 / |r|, the interval in the same sense with INFINITY
- * where the growth interval reaches 0. */
-static void doubling(double r, double rlo, double rhi, double *T,
-                     double *Tlo, double *Thi, int *sense) {
-  const double ln2 = 0.6931471805599453;
-  int sg = r > 0 ? 1 : (r < 0 ? -1 : 0);
-  double t = sg ? ln2 / fabs(r) : INFINITY, a, b;
-  if (sg >= 0) {
-    a = rhi > 0 ? ln2 / rhi : INFINITY;
-    b = rlo > 0 ? ln2 / rlo : INFINITY;
-  } else {
-    a = rlo < 0 ? ln2 / -rlo : INFINITY;
-    b = rhi < 0 ? ln2 / -rhi : INFINITY;
-  }
-  if (sg == 0) {
-    a = INFINITY;
-    b = INFINITY;
-  }
-  if (T)
-    *T = t;
-  if (Tlo)
-    *Tlo = a;
-  if (Thi)
-    *Thi = b;
-  if (sense)
-    *sense = sg;
-}
-
 int twofold_changes_doubling(const twofold_changes *ch, double *time,
                              double *lo, double *hi, int *sense) {
   NEED_RUN(ch);
   double z = qnorm(0.5 + ch->opt.level / 2);
   for (size_t t = 0; t < ch->n; t++) {
     double m = ch->gmean[t], s = ch->gsd[t];
-    doubling(m, m - z * s, m + z * s, time ? time + t : NULL,
-             lo ? lo + t : NULL, hi ? hi + t : NULL, sense ? sense + t : NULL);
+    (void)twofold_doubling_time(m, m - z * s, m + z * s,
+                                time ? time + t : NULL, lo ? lo + t : NULL,
+                                hi ? hi + t : NULL, sense ? sense + t : NULL);
   }
   return 0;
 }
