@@ -1014,9 +1014,12 @@ static int estimate_effects(tf_cpdata *d, int weekday, int want_phi) {
     nb--;
   fit_block *bl = calloc(nb, sizeof *bl);
   double *sv = malloc(nb * 2 * sizeof(double));
-  if (!bl || !sv) {
+  /* per block from the first pass of an iteration: H (3), g (2), C (2 x 6) */
+  double *bs = malloc(nb * 17 * sizeof(double));
+  if (!bl || !sv || !bs) {
     free(bl);
     free(sv);
+    free(bs);
     return TWOFOLD_ENOMEM;
   }
   double a0 = log(d->ybar);
@@ -1064,6 +1067,10 @@ static int estimate_effects(tf_cpdata *d, int weekday, int want_phi) {
           gd[c - 1] += res;
         }
       }
+      double *keep = bs + 17 * k;
+      memcpy(keep, H, 3 * sizeof(double));
+      memcpy(keep + 3, g, 2 * sizeof(double));
+      memcpy(keep + 5, C, 12 * sizeof(double));
       double det = H[0] * H[2] - H[1] * H[1];
       double Hi[3] = {H[2] / det, -H[1] / det, H[0] / det};
       /* Schur complement contributions */
@@ -1086,29 +1093,14 @@ static int estimate_effects(tf_cpdata *d, int weekday, int want_phi) {
       if (solve_sym(A, z, 6) != 0)
         break;
     }
-    /* block steps x_k = H_k^-1 (g_k - C_k z): second pass */
+    /* block steps x_k = H_k^-1 (g_k - C_k z), from the first pass's sums */
     double *da = sv; /* reuse: da[2k], da[2k+1] */
     for (size_t k = 0; k < nb; k++) {
-      double H[3] = {1.0 / 100, 0, 1 / 2.25}, g[2], Cz[2] = {0, 0};
-      g[0] = -(bl[k].a - a0) / 100;
-      g[1] = -bl[k].b / 2.25;
-      for (size_t t = bl[k].lo; t < bl[k].hi; t++) {
-        if (tf_isnan(d->y[t]))
-          continue;
-        int c = tf_cls(d, t);
-        double u = ((double)t - bl[k].c) / 7;
-        double eta =
-            bl[k].a + bl[k].b * u + (nd && c > 0 ? dl[c - 1] : 0);
-        double mu = exp(eta), res = d->y[t] - mu;
-        H[0] += mu;
-        H[1] += mu * u;
-        H[2] += mu * u * u;
-        g[0] += res;
-        g[1] += res * u;
-        if (nd && c > 0) {
-          Cz[0] += mu * z[c - 1];
-          Cz[1] += mu * u * z[c - 1];
-        }
+      const double *H = bs + 17 * k, *g = H + 3, *C0 = H + 5, *C1 = H + 11;
+      double Cz[2] = {0, 0};
+      for (int i = 0; i < nd; i++) {
+        Cz[0] += C0[i] * z[i];
+        Cz[1] += C1[i] * z[i];
       }
       double det = H[0] * H[2] - H[1] * H[1];
       double r0 = g[0] - Cz[0], r1 = g[1] - Cz[1];
@@ -1171,6 +1163,7 @@ static int estimate_effects(tf_cpdata *d, int weekday, int want_phi) {
       if (!r2) {
         free(bl);
         free(sv);
+        free(bs);
         return TWOFOLD_ENOMEM;
       }
       size_t m = 0;
@@ -1205,6 +1198,7 @@ static int estimate_effects(tf_cpdata *d, int weekday, int want_phi) {
   }
   free(bl);
   free(sv);
+  free(bs);
   return 0;
 }
 
