@@ -414,22 +414,11 @@ int tf_kink_run(struct twofold_changes *ch) {
   int *bpg = malloc(ns * sizeof(int));
   double *d0 = calloc(n + 1, sizeof(double)), *d1 = calloc(n + 1, sizeof(double)),
          *d2 = calloc(n + 1, sizeof(double));
-  if (!Fj || !V || !bps || !bpg || !d0 || !d1 || !d2) {
-    free(Fj);
-    free(V);
-    free(bps);
-    free(bpg);
-    free(d0);
-    free(d1);
-    free(d2);
-    free(zero);
-    return TWOFOLD_ENOMEM;
-  }
   /* F and Fj hold linear values with log scales FS, FjS per knot until
    * their knot is reached, then logs */
   double *FS = malloc((n + 1) * sizeof(double));
   double *FjS = malloc((size_t)(K + 1) * (n + 1) * sizeof(double));
-  if (!FS || !FjS) {
+  if (!Fj || !V || !bps || !bpg || !d0 || !d1 || !d2 || !FS || !FjS) {
     free(FS);
     free(FjS);
     free(Fj);

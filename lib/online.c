@@ -159,6 +159,20 @@ static void renormalise(twofold_online *on) {
     on->cw[i] -= lz;
 }
 
+/* v[0..n-1] in descending order (insertion sort: n is at most the
+ * candidate bound). */
+static void sort_desc(double *v, size_t n) {
+  for (size_t i = 1; i < n; i++) {
+    double x = v[i];
+    size_t j = i;
+    while (j > 0 && v[j - 1] < x) {
+      v[j] = v[j - 1];
+      j--;
+    }
+    v[j] = x;
+  }
+}
+
 /* Stratified optimal resampling of the candidates down to m (METHODS A4).
  * Weights are normalised (linear scale in sortbuf). */
 static void sor(twofold_online *on, size_t m) {
@@ -169,15 +183,7 @@ static void sor(twofold_online *on, size_t m) {
   /* sort a copy descending to find alpha */
   double *srt = w + nc;
   memcpy(srt, w, nc * sizeof(double));
-  for (size_t i = 1; i < nc; i++) { /* insertion sort: nc is small */
-    double v = srt[i];
-    size_t j = i;
-    while (j > 0 && srt[j - 1] < v) {
-      srt[j] = srt[j - 1];
-      j--;
-    }
-    srt[j] = v;
-  }
+  sort_desc(srt, nc);
   /* tails of the sorted weights summed from the smallest up: a running
    * difference from the total loses the small tails to rounding, and an
    * alpha far below the rounding error keeps every small weight (so the
@@ -229,15 +235,7 @@ static void keep_largest(twofold_online *on, size_t m) {
   size_t nc = on->nc;
   double *srt = on->sortbuf;
   memcpy(srt, on->cw, nc * sizeof(double));
-  for (size_t i = 1; i < nc; i++) { /* descending */
-    double v = srt[i];
-    size_t j = i;
-    while (j > 0 && srt[j - 1] < v) {
-      srt[j] = srt[j - 1];
-      j--;
-    }
-    srt[j] = v;
-  }
+  sort_desc(srt, nc);
   double cut = srt[m - 1];
   size_t above = 0;
   for (size_t i = 0; i < nc; i++)
