@@ -1156,14 +1156,7 @@ int twofold_changes_sample(const twofold_changes *ch, uint64_t seed,
         size_t k = cidx(ch, s, e);
         b = ch->cb[k] + sqrt(ch->cv[k]) * tf_rng_norm(&r);
       }
-      if (rate)
-        for (size_t t = s; t <= e; t++)
-          rate[dr * n + t] = b;
-      if (e + 1 < n) {
-        cnt++;
-        if (change)
-          change[dr * n + e + 1] = 1;
-      }
+      cnt += tf_sample_put(n, dr, s, e, b, rate, change);
       s = e + 1;
     }
     if (count)

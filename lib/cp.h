@@ -339,6 +339,22 @@ static inline double tf_lse_array(const double *x, size_t n) {
   return m + log(s);
 }
 
+/* Draw dr of a sampled segmentation: segment [s, e] with growth rate b
+ * into rate (NULL: not wanted) and, when a change follows it, a 1 on day
+ * e+1 of change (NULL: not wanted); returns 1 for that change, else 0. */
+static inline size_t tf_sample_put(size_t n, size_t dr, size_t s, size_t e,
+                                   double b, double *rate,
+                                   unsigned char *change) {
+  if (rate)
+    for (size_t t = s; t <= e; t++)
+      rate[dr * n + t] = b;
+  if (e + 1 >= n)
+    return 0;
+  if (change)
+    change[dr * n + e + 1] = 1;
+  return 1;
+}
+
 /* Whether every argument is finite: x - x is 0 for a finite x and NaN for
  * an infinite or NaN one (a few subtractions and one comparison, where
  * isfinite costs a mask and a comparison each). */

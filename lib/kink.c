@@ -717,14 +717,7 @@ int tf_kink_sample(const struct twofold_changes *ch, uint64_t seed,
       e = le;
       g2 = lg2;
       double b = seg_b(k, s, e, g, g2);
-      if (rate)
-        for (size_t t = s; t <= e; t++)
-          rate[dr * n + t] = b;
-      if (e + 1 < n) {
-        cnt++;
-        if (change)
-          change[dr * n + e + 1] = 1;
-      }
+      cnt += tf_sample_put(n, dr, s, e, b, rate, change);
       s = e + 1;
       g = g2;
     }
