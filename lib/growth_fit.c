@@ -444,8 +444,14 @@ static void nbth_init(nbth *c, double th, int ds) {
  *       = (log theta - psi(theta)) + log((theta + y)/(theta + m))
  *         + (psi(theta + y) - log(theta + y)),
  * the first once per theta, the last from the series; elsewhere psidiff. */
-NB_INLINE double nb_sday(const nbth *c, double y, double m, double id,
-                         double *ds) {
+/* whole: the value as said above.  Otherwise without its logarithm,
+ * log((theta + y)/(theta + m)) or -log1p(m/theta), whose argument goes to
+ * *ratio ((theta + y)/(theta + m) or theta/(theta + m)): the caller adds
+ * the logarithms of a window's days as one log of their product, where
+ * the terms are of order one (below theta = 1e3, summed plainly: the
+ * ratio's rounding costs about 1e-16 absolute, as log1p's would). */
+NB_INLINE double nb_sday_part(const nbth *c, double y, double m, double id,
+                              double *ds, double *ratio, int whole) {
   double th = c->th;
   if (th < 1e3 && th + y >= 10.0) {
     double x = th + y;
@@ -453,13 +459,24 @@ NB_INLINE double nb_sday(const nbth *c, double y, double m, double id,
       *ds = tf_tri_ser(x) - c->ps1 + m * id / th - (m - y) * id * id;
     /* log of the ratio (theta + y)/(theta + m): its absolute error, about
      * 1e-16, is what log1p would leave in the sum */
-    return c->cth + log(x * id) + tf_psi_mlog(x) + (m - y) * id;
+    if (whole)
+      return c->cth + log(x * id) + tf_psi_mlog(x) + (m - y) * id;
+    *ratio = x * id;
+    return c->cth + tf_psi_mlog(x) + (m - y) * id;
   }
   double d1, d2 = 0.0;
   psidiff(th, y, c->ps0, c->ps1, &d1, ds ? &d2 : NULL);
   if (ds)
     *ds = -d2 + m * id / th - (m - y) * id * id;
-  return d1 - log1p(m / th) + (m - y) * id;
+  if (whole)
+    return d1 - log1p(m / th) + (m - y) * id;
+  *ratio = th * id;
+  return d1 + (m - y) * id;
+}
+
+NB_INLINE double nb_sday(const nbth *c, double y, double m, double id,
+                         double *ds) {
+  return nb_sday_part(c, y, m, id, ds, NULL, 1);
 }
 
 /* The sums of one pass over the window at (beta, theta), as flags ask:
@@ -497,6 +514,10 @@ NB_INLINE void nb_kernel_n(const win_t *w, const nbpar *p, unsigned f,
    * order one lose nothing that matters to plain sums */
   int comp = th >= 1e3;
   double Sp = 0.0, Dp = 0.0;
+  /* below theta = 1e3 the days' log ratios as one log of their product
+   * (lp, folded into Sl before it could leave [1e-200, 1e200]; a ratio
+   * outside [1e-100, 1e100] by its own log) */
+  double lp = 1.0, Sl = 0.0;
   for (int j = 0; j < nc; j++) {
     /* the first day of class j (w->wd0 in 0..6: no division) */
     size_t t0 = nc == 7 ? (size_t)(j >= w->wd0 ? j - w->wd0 : j - w->wd0 + 7)
@@ -537,14 +558,25 @@ NB_INLINE void nb_kernel_n(const win_t *w, const nbpar *p, unsigned f,
       }
       if (f & NBK_S) {
         double ds = 0.0;
-        double sd = nb_sday(&c, y, m, id, (f & NBK_DS) ? &ds : NULL);
         if (comp) {
+          double sd = nb_sday(&c, y, m, id, (f & NBK_DS) ? &ds : NULL);
           ks_add2(&S, sd);
           if (f & NBK_DS)
             ks_add2(&D, ds);
         } else {
-          Sp += sd;
+          double ratio;
+          Sp += nb_sday_part(&c, y, m, id, (f & NBK_DS) ? &ds : NULL, &ratio,
+                             0);
           Dp += ds;
+          if (ratio > 1e-100 && ratio < 1e100) {
+            lp *= ratio;
+            if (!(lp > 1e-200 && lp < 1e200)) {
+              Sl += log(lp);
+              lp = 1.0;
+            }
+          } else {
+            Sl += log(ratio);
+          }
         }
       }
       if (f & NBK_LL) {
@@ -563,7 +595,7 @@ NB_INLINE void nb_kernel_n(const win_t *w, const nbpar *p, unsigned f,
   z->Hrr = Hrr;
   z->Cr = Cr;
   z->Irr = Irr;
-  z->S = comp ? ks_val(&S) : Sp;
+  z->S = comp ? ks_val(&S) : Sp + (Sl + (lp == 1.0 ? 0.0 : log(lp)));
   z->DS = comp ? ks_val(&D) : Dp;
   z->ll = ks_val(&L);
 }
