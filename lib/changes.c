@@ -1009,9 +1009,23 @@ int twofold_changes_doubling(const twofold_changes *ch, double *time,
   double z = qnorm(0.5 + ch->opt.level / 2);
   for (size_t t = 0; t < ch->n; t++) {
     double m = ch->gmean[t], s = ch->gsd[t];
-    (void)twofold_doubling_time(m, m - z * s, m + z * s,
-                                time ? time + t : NULL, lo ? lo + t : NULL,
-                                hi ? hi + t : NULL, sense ? sense + t : NULL);
+    double T, Tlo, Thi;
+    int sg;
+    if (twofold_doubling_time(m, m - z * s, m + z * s, &T, &Tlo, &Thi,
+                              &sg) != TWOFOLD_OK) {
+      /* no finite growth on that day (counts beyond what the segment fits
+       * hold): unbounded, never NaN */
+      T = Tlo = Thi = INFINITY;
+      sg = 0;
+    }
+    if (time)
+      time[t] = T;
+    if (lo)
+      lo[t] = Tlo;
+    if (hi)
+      hi[t] = Thi;
+    if (sense)
+      sense[t] = sg;
   }
   return 0;
 }
