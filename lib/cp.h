@@ -203,7 +203,6 @@ typedef struct tf_psum {
   double g0, g1; /* e^{bref} = g0 + g1 (g1 the rounding correction)  */
   double z;      /* e^{bref (next - s)}                              */
   int bad;       /* sums left double range: unusable                 */
-  int nlast;     /* Taylor terms of the last full evaluation (0: none) */
   double A[TF_PSUM_N];
   /* the last full evaluation of tf_seg_jump_ps, kept to start the fit of
    * the segment one day longer (wok 0: none) */

@@ -373,7 +373,6 @@ static void psum_clear(tf_psum *p, double bref) {
 
 void tf_psum_init(tf_psum *p, size_t s, double bref) {
   p->s = s;
-  p->nlast = 0;
   p->wok = 0;
   p->wend = 0;
   p->wb = 0;
