@@ -423,13 +423,14 @@ NB_INLINE void ks_add2(ksum *k, double v) {
 
 
 /* What one theta needs for the days' theta scores: psi(theta),
- * psi'(theta) (if ds) and log theta - psi(theta). */
+ * psi'(theta) (if ds), log theta - psi(theta) and 1/theta. */
 typedef struct {
-  double th, ps0, ps1, cth;
+  double th, ps0, ps1, cth, ith;
 } nbth;
 
 static void nbth_init(nbth *c, double th, int ds) {
   c->th = th;
+  c->ith = 1.0 / th;
   c->ps0 = tf_digamma(th);
   c->ps1 = ds ? tf_trigamma(th) : 0.0;
   c->cth = th >= 10.0 ? -tf_psi_mlog(th) : log(th) - c->ps0;
@@ -451,23 +452,28 @@ static void nbth_init(nbth *c, double th, int ds) {
  * the terms are of order one (below theta = 1e3, summed plainly: the
  * ratio's rounding costs about 1e-16 absolute, as log1p's would). */
 NB_INLINE double nb_sday_part(const nbth *c, double y, double m, double id,
-                              double *ds, double *ratio, int whole) {
+                              double ix, double *ds, double *ratio,
+                              int whole) {
   double th = c->th;
   if (th < 1e3 && th + y >= 10.0) {
-    double x = th + y;
-    if (ds)
-      *ds = tf_tri_ser(x) - c->ps1 + m * id / th - (m - y) * id * id;
+    double x = th + y, ps, tr;
+    if (ds) {
+      tf_psi_tri_inv(ix, &ps, &tr);
+      *ds = tr - c->ps1 + m * id * c->ith - (m - y) * id * id;
+    } else {
+      ps = tf_psi_mlog_inv(ix);
+    }
     /* log of the ratio (theta + y)/(theta + m): its absolute error, about
      * 1e-16, is what log1p would leave in the sum */
     if (whole)
-      return c->cth + log(x * id) + tf_psi_mlog(x) + (m - y) * id;
+      return c->cth + log(x * id) + ps + (m - y) * id;
     *ratio = x * id;
-    return c->cth + tf_psi_mlog(x) + (m - y) * id;
+    return c->cth + ps + (m - y) * id;
   }
   double d1, d2 = 0.0;
   psidiff(th, y, c->ps0, c->ps1, &d1, ds ? &d2 : NULL);
   if (ds)
-    *ds = -d2 + m * id / th - (m - y) * id * id;
+    *ds = -d2 + m * id * c->ith - (m - y) * id * id;
   if (whole)
     return d1 - log1p(m / th) + (m - y) * id;
   *ratio = th * id;
@@ -475,8 +481,22 @@ NB_INLINE double nb_sday_part(const nbth *c, double y, double m, double id,
 }
 
 NB_INLINE double nb_sday(const nbth *c, double y, double m, double id,
-                         double *ds) {
-  return nb_sday_part(c, y, m, id, ds, NULL, 1);
+                         double ix, double *ds) {
+  return nb_sday_part(c, y, m, id, ix, ds, NULL, 1);
+}
+
+/* 1/(theta + m) and 1/(theta + y) from one division (theta, m, y >= 0,
+ * theta > 0), or two where the product leaves the range. */
+NB_INLINE void nb_recip2(double th, double m, double y, double *id,
+                         double *ix) {
+  double den = th + m, x = th + y, rr = 1.0 / (den * x);
+  if (rr > 0.0 && rr <= DBL_MAX) {
+    *id = x * rr;
+    *ix = den * rr;
+  } else {
+    *id = 1.0 / den;
+    *ix = 1.0 / x;
+  }
 }
 
 /* The sums of one pass over the window at (beta, theta), as flags ask:
@@ -485,7 +505,8 @@ NB_INLINE double nb_sday(const nbth *c, double y, double m, double id,
  * NBK_I the expected information X'WX (I, Ir, Irr); NBK_S the score of
  * theta S = dl/dtheta and NBK_DS its derivative DS; NBK_LL the
  * log-likelihood without its theta-only and y-only terms.  mu[t] gets the
- * mean of each present day t.  The days are taken class by class; without
+ * mean of each present day t (and, with NBK_C, mu[w->n + t] its 1/(theta +
+ * mu), for cr_score).  The days are taken class by class; without
  * an offset the means of a class are made from one exponential by
  * multiplying by e^{r step}, anew from exp every 8 days (relative error
  * below 1e-15). */
@@ -535,7 +556,13 @@ NB_INLINE void nb_kernel_n(const win_t *w, const nbpar *p, unsigned f,
       if (tf_isnan(y))
         continue;
       mu[t] = m;
-      double den = th + m, id = 1.0 / den;
+      double id, ix = 0.0;
+      if (f & NBK_S)
+        nb_recip2(th, m, y, &id, &ix);
+      else
+        id = 1.0 / (th + m);
+      if (f & NBK_C)
+        mu[w->n + t] = id; /* for cr_score */
       if (f & NBK_BETA) {
         double s = th * (y - m) * id;
         double h = th * m * (th + y) * id * id;
@@ -559,14 +586,14 @@ NB_INLINE void nb_kernel_n(const win_t *w, const nbpar *p, unsigned f,
       if (f & NBK_S) {
         double ds = 0.0;
         if (comp) {
-          double sd = nb_sday(&c, y, m, id, (f & NBK_DS) ? &ds : NULL);
+          double sd = nb_sday(&c, y, m, id, ix, (f & NBK_DS) ? &ds : NULL);
           ks_add2(&S, sd);
           if (f & NBK_DS)
             ks_add2(&D, ds);
         } else {
           double ratio;
-          Sp += nb_sday_part(&c, y, m, id, (f & NBK_DS) ? &ds : NULL, &ratio,
-                             0);
+          Sp += nb_sday_part(&c, y, m, id, ix, (f & NBK_DS) ? &ds : NULL,
+                             &ratio, 0);
           Dp += ds;
           if (ratio > 1e-100 && ratio < 1e100) {
             lp *= ratio;
@@ -721,8 +748,9 @@ static double nb_theta(const win_t *w, nbpar *p, const double *mu,
       double y = w->y[t];
       if (tf_isnan(y))
         continue;
-      double m = mu[t], ds;
-      ks_add(&S, nb_sday(&c, y, m, 1.0 / (th + m), &ds));
+      double m = mu[t], ds, id, ix;
+      nb_recip2(th, m, y, &id, &ix);
+      ks_add(&S, nb_sday(&c, y, m, id, ix, &ds));
       ks_add(&D, ds); /* dS/dtheta */
     }
     double s = ks_val(&S), ds = ks_val(&D);
@@ -807,7 +835,7 @@ static void nb_mu(const win_t *w, const nbpar *p, double *mu) {
   nb_kernel(w, p, 0u, mu, &z);
 }
 
-/* Full NB2 fit by alternation.  mu is scratch of w->n doubles.  Returns
+/* Full NB2 fit by alternation.  mu is scratch of 2 w->n doubles.  Returns
  * 0 or -1 (no convergence). */
 static int nb_fit(const win_t *w, nbpar *p, int fixr, int maxit, double tol,
                   double *mu) {
@@ -852,7 +880,7 @@ static double nb_loglik(const win_t *w, const nbpar *p) {
 }
 
 /* Expected-information SE of r, and (pearson not NULL) Pearson X^2 and
- * deviance at p; mu is scratch of w->n doubles. */
+ * deviance at p; mu is scratch of 2 w->n doubles. */
 static void nb_stats(const win_t *w, const nbpar *p, double *se,
                      double *pearson, double *dev, double *mu) {
   double th = p->theta;
@@ -1041,7 +1069,7 @@ static double cr_score(const win_t *w, double th, const nbsums *z,
       if (tf_isnan(w->y[t]))
         continue;
       double tt = (double)t, m = mu[t];
-      double id = 1.0 / (th + m);
+      double id = mu[w->n + t]; /* 1/(theta + m), kept by the kernel */
       double dW = th * m * (m + th * (cb[j] + tt * cr)) * id * id;
       double d = tt - tbar[j];
       dld += dW * (iI[j] + d * d * isch);
@@ -1062,7 +1090,7 @@ static double cr_score(const win_t *w, double th, const nbsums *z,
  * score; H the observed information of beta), the leverages
  * x_t'(X'WX)^{-1}x_t = 1/I_j + (t - tbar_j)^2 / S from the arrow-shaped
  * information (S its Schur complement in r).  p is updated to beta_theta;
- * mu is scratch of w->n doubles. */
+ * mu is scratch of 2 w->n doubles. */
 static double cr_grad(const win_t *w, nbpar *p, double tau, int maxit,
                       double tol, int *fail, double *mu) {
   p->theta = exp(tau);
@@ -1099,7 +1127,7 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
  * tried at guess +- 0.02), then refined by the Illinois variant of
  * false position (given a guess, first by cr_fast from the bracket).  p (in: the ML fit) gets beta at the adjusted theta;
  * *slope the slope of cr_grad between the last two points (the next
- * window's first guess of it); mu is scratch of w->n doubles. */
+ * window's first guess of it); mu is scratch of 2 w->n doubles. */
 static double cr_theta(const win_t *w, nbpar *p, int maxit, double tol,
                        int *fail, double guess, double *mu, double *slope) {
   *slope = NAN;
@@ -1262,7 +1290,7 @@ static int nb_beta_pre(const win_t *w, nbpar *p, int k, double *mu,
  * may be wild and theta must stay well below the cap; otherwise it
  * returns -1 and the caller alternates from the same start.  It stops
  * once the Newton decrement is below 1e-2 tol, after that last step.
- * mu is scratch of w->n doubles; last (if not NULL) gets the last pass
+ * mu is scratch of 2 w->n doubles; last (if not NULL) gets the last pass
  * (ok set) when it converges.
  *
  * With warm set (a rolling window's start, whose caller tries the cap
@@ -2292,7 +2320,9 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
   /* NB2: start from the Poisson fit (or the warm start) */
   double z = Q->z;
   double c = Q->c;
-  double *mu = malloc(w.n * sizeof *mu);
+  /* the means of the present days, then (passes with NBK_C) their
+   * 1/(theta + mu) */
+  double *mu = malloc(2 * w.n * sizeof *mu);
   if (mu == NULL)
     return fail(res, TWOFOLD_ENOMEM, "out of memory%s%.0f", "", 0.0);
   nbpar np;
