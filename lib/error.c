@@ -93,8 +93,3 @@ char *tf_strdup(const char *s) {
   return p;
 }
 
-int tf_count_ok(double v) {
-  if (tf_isnan(v))
-    return 1;
-  return v >= 0.0 && v <= TF_COUNT_MAX && floor(v) == v;
-}

@@ -1635,9 +1635,11 @@ static void res_clear(tf_gres *res, int model, int nc, double level) {
  * status (message set). */
 static int scan(win_t *w, tf_gres *res) {
   int nc = w->nc;
-  ksum Y = {0, 0}, T = {0, 0}, YO = {0, 0};
-  ksum Yc[7];
-  memset(Yc, 0, sizeof Yc);
+  /* the counts are whole numbers: their sums, and those of y t, are exact
+   * in plain arithmetic while below 2^53 (checked after; above, summed
+   * again with compensation) */
+  double Y = 0.0, T = 0.0, Yc[7] = {0};
+  ksum YO = {0, 0};
   for (int j = 0; j < 7; j++) {
     w->cnt[j] = 0;
     w->tfirst[j] = w->tlast[j] = -1;
@@ -1665,17 +1667,33 @@ static int scan(win_t *w, tf_gres *res) {
     }
     w->tlast[j] = (long)t;
     w->ylast[j] = y;
-    ks_add(&Y, y);
-    ks_add(&Yc[j], y);
-    ks_add(&T, y * (double)t);
+    Y += y;
+    Yc[j] += y;
+    T += y * (double)t;
     if (w->off)
       ks_add(&YO, y * w->off[t]);
   }
-  w->Ytot = ks_val(&Y);
-  w->T = ks_val(&T);
+  if (!(Y < TF_COUNT_MAX && T < TF_COUNT_MAX)) {
+    ksum KY = {0, 0}, KT = {0, 0}, KC[7];
+    memset(KC, 0, sizeof KC);
+    for (size_t t = 0; t < w->n; t++) {
+      double y = w->y[t];
+      if (tf_isnan(y))
+        continue;
+      ks_add(&KY, y);
+      ks_add(&KC[cls(w, t)], y);
+      ks_add(&KT, y * (double)t);
+    }
+    Y = ks_val(&KY);
+    T = ks_val(&KT);
+    for (int j = 0; j < 7; j++)
+      Yc[j] = ks_val(&KC[j]);
+  }
+  w->Ytot = Y;
+  w->T = T;
   w->yo = ks_val(&YO);
   for (int j = 0; j < nc; j++)
-    w->Y[j] = ks_val(&Yc[j]);
+    w->Y[j] = Yc[j];
   return 0;
 }
 
@@ -2322,7 +2340,8 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
   double c = Q->c;
   /* the means of the present days, then (passes with NBK_C) their
    * 1/(theta + mu) */
-  double *mu = malloc(2 * w.n * sizeof *mu);
+  double mubuf[2 * 64];
+  double *mu = w.n <= 64 ? mubuf : malloc(2 * w.n * sizeof *mu);
   if (mu == NULL)
     return fail(res, TWOFOLD_ENOMEM, "out of memory%s%.0f", "", 0.0);
   nbpar np;
@@ -2336,7 +2355,8 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
     double r, h;
     it = pois_solve(&w, 0.0, o->max_iter, o->tol, &r, &h);
     if (it < 0) {
-      free(mu);
+      if (mu != mubuf)
+        free(mu);
       return fail(res, TWOFOLD_ENOCONV,
                   "Poisson start did not converge in %s%.0f iterations", "",
                   (double)o->max_iter);
@@ -2421,7 +2441,8 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
     jl.ok = 0;
   if (!done) {
     if (nb_fit(&w, &np, 0, o->max_iter, o->tol, mu) != 0) {
-      free(mu);
+      if (mu != mubuf)
+        free(mu);
       return fail(res, TWOFOLD_ENOCONV,
                   "negative binomial fit did not converge (theta %s%g)", "",
                   np.theta);
@@ -2470,7 +2491,8 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
     res->prof[0] = prof_root(&pc, np.r, lhat, lhat - c, -1.0, st, &np);
     res->prof[1] = prof_root(&pc, np.r, lhat, lhat - c, +1.0, st, &np);
     if (tf_isnan(res->prof[0]) || tf_isnan(res->prof[1])) {
-      free(mu);
+      if (mu != mubuf)
+        free(mu);
       return fail(res, TWOFOLD_ENOCONV,
                   "profile-likelihood interval search failed%s%.0f", "", 0.0);
     }
@@ -2492,12 +2514,14 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
                  &res->small[0], &res->small[1], &res->theta_cr, guess,
                  slope0, &res->cr_slope, jl.ok ? &jl : NULL,
                  mu) != 0) {
-      free(mu);
+      if (mu != mubuf)
+        free(mu);
       return fail(res, TWOFOLD_ENOCONV,
                   "small-sample interval: adjusted theta search failed%s%.0f",
                   "", 0.0);
     }
   }
-  free(mu);
+  if (mu != mubuf)
+    free(mu);
   return 0;
 }

@@ -6,6 +6,7 @@
 #include "twofold.h"
 
 #include <stdarg.h>
+#include <stdint.h>
 #include <stddef.h>
 
 /* Largest count accepted: 2^53, the last integer a double holds exactly. */
@@ -34,8 +35,6 @@ int tf_msg_set(char *buf, int code, const char *fmt, ...)
 /* strdup that returns NULL on failure (strdup is not C11). */
 char *tf_strdup(const char *s);
 
-/* 1 if v is NaN or a whole number in [0, 2^53]. */
-int tf_count_ok(double v);
 
 /* log|Gamma(x)| without touching the C library's global signgam (lgamma
  * is not thread-safe; lgamma_r is the reentrant form in glibc, musl and
@@ -48,5 +47,15 @@ static inline double tf_lgamma(double x) {
 
 /* Test for NaN without depending on -ffast-math semantics. */
 static inline int tf_isnan(double v) { return v != v; }
+
+/* 1 if v is NaN or a whole number in [0, 2^53] (in that range the
+ * conversion to a 64-bit integer is exact for whole numbers and cuts the
+ * fraction of the others; no call to floor, which baseline x86-64 makes
+ * a library call). */
+static inline int tf_count_ok(double v) {
+  if (tf_isnan(v))
+    return 1;
+  return v >= 0.0 && v <= TF_COUNT_MAX && (double)(int64_t)v == v;
+}
 
 #endif
