@@ -421,7 +421,6 @@ NB_INLINE void ks_add2(ksum *k, double v) {
   k->s = t;
 }
 
-
 /* What one theta needs for the days' theta scores: psi(theta),
  * psi'(theta) (if ds), log theta - psi(theta) and 1/theta. */
 typedef struct {
@@ -456,13 +455,9 @@ NB_INLINE double nb_sday_part(const nbth *c, double y, double m, double id,
                               int whole) {
   double th = c->th;
   if (th < 1e3 && th + y >= 10.0) {
-    double x = th + y, ps, tr;
-    if (ds) {
-      tf_psi_tri_inv(ix, &ps, &tr);
-      *ds = tr - c->ps1 + m * id * c->ith - (m - y) * id * id;
-    } else {
-      ps = tf_psi_mlog_inv(ix);
-    }
+    double x = th + y, ps = tf_psi_mlog_inv(ix);
+    if (ds)
+      *ds = tf_tri_ser_inv(ix) - c->ps1 + m * id * c->ith - (m - y) * id * id;
     /* log of the ratio (theta + y)/(theta + m): its absolute error, about
      * 1e-16, is what log1p would leave in the sum */
     if (whole)
@@ -732,8 +727,9 @@ static int nb_beta(const win_t *w, nbpar *p, int fixr, int maxit, double tol,
 
 /* Newton on tau = log theta at fixed mu (MASS theta.ml score and
  * information), with steps of flat in tau where the log-likelihood is
- * not concave in tau, and at most maxit steps.  Returns the change in tau, NAN on failure; *dec
- * gets the Newton decrement in tau at the start (log-likelihood units). */
+ * not concave in tau, and at most maxit steps.  Returns the change in
+ * tau, NAN on failure; *dec gets the Newton decrement in tau at the start
+ * (log-likelihood units). */
 static double nb_theta(const win_t *w, nbpar *p, const double *mu,
                        double flat, int maxit, double *dec) {
   double tau0 = log(p->theta), tau = tau0;
@@ -1125,9 +1121,10 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
 /* The Cox-Reid adjusted theta: the root of cr_grad below the ML value,
  * bracketed by stepping down (or, given a guess of log theta, first
  * tried at guess +- 0.02), then refined by the Illinois variant of
- * false position (given a guess, first by cr_fast from the bracket).  p (in: the ML fit) gets beta at the adjusted theta;
- * *slope the slope of cr_grad between the last two points (the next
- * window's first guess of it); mu is scratch of 2 w->n doubles. */
+ * false position (given a guess, first by cr_fast from the bracket).
+ * p (in: the ML fit) gets beta at the adjusted theta; *slope the slope
+ * of cr_grad between the last two points (the next window's first guess
+ * of it); mu is scratch of 2 w->n doubles. */
 static double cr_theta(const win_t *w, nbpar *p, int maxit, double tol,
                        int *fail, double guess, double *mu, double *slope) {
   *slope = NAN;
@@ -2343,7 +2340,8 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
   /* the means of the present days, then (passes with NBK_C) their
    * 1/(theta + mu) */
   double mubuf[2 * 64];
-  double *mu = w.n <= 64 ? mubuf : malloc(2 * w.n * sizeof *mu);
+  double *muheap = w.n <= 64 ? NULL : malloc(2 * w.n * sizeof *muheap);
+  double *mu = w.n <= 64 ? mubuf : muheap;
   if (mu == NULL)
     return fail(res, TWOFOLD_ENOMEM, "out of memory%s%.0f", "", 0.0);
   nbpar np;
@@ -2357,8 +2355,7 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
     double r, h;
     it = pois_solve(&w, 0.0, o->max_iter, o->tol, &r, &h);
     if (it < 0) {
-      if (mu != mubuf)
-        free(mu);
+      free(muheap);
       return fail(res, TWOFOLD_ENOCONV,
                   "Poisson start did not converge in %s%.0f iterations", "",
                   (double)o->max_iter);
@@ -2443,8 +2440,7 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
     jl.ok = 0;
   if (!done) {
     if (nb_fit(&w, &np, 0, o->max_iter, o->tol, mu) != 0) {
-      if (mu != mubuf)
-        free(mu);
+      free(muheap);
       return fail(res, TWOFOLD_ENOCONV,
                   "negative binomial fit did not converge (theta %s%g)", "",
                   np.theta);
@@ -2493,8 +2489,7 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
     res->prof[0] = prof_root(&pc, np.r, lhat, lhat - c, -1.0, st, &np);
     res->prof[1] = prof_root(&pc, np.r, lhat, lhat - c, +1.0, st, &np);
     if (tf_isnan(res->prof[0]) || tf_isnan(res->prof[1])) {
-      if (mu != mubuf)
-        free(mu);
+      free(muheap);
       return fail(res, TWOFOLD_ENOCONV,
                   "profile-likelihood interval search failed%s%.0f", "", 0.0);
     }
@@ -2516,14 +2511,12 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
                  &res->small[0], &res->small[1], &res->theta_cr, guess,
                  slope0, &res->cr_slope, jl.ok ? &jl : NULL,
                  mu) != 0) {
-      if (mu != mubuf)
-        free(mu);
+      free(muheap);
       return fail(res, TWOFOLD_ENOCONV,
                   "small-sample interval: adjusted theta search failed%s%.0f",
                   "", 0.0);
     }
   }
-  if (mu != mubuf)
-    free(mu);
+  free(muheap);
   return 0;
 }

@@ -126,27 +126,20 @@ static inline double tf_tri_poly(double z, double z2, double z4) {
   return p01 + z2 * p23 + z4 * (p45 + z2 * (7.0 / 6.0));
 }
 
-static inline double tf_psi_mlog(double x) {
-  double i = 1.0 / x, z = i * i, z2 = z * z, z4 = z2 * z2;
-  return -0.5 * i - z * tf_psi_poly(z, z2, z4);
-}
-
-static inline double tf_tri_ser(double x) {
-  double i = 1.0 / x, z = i * i, z2 = z * z, z4 = z2 * z2;
-  return i * (1.0 + i * (0.5 + i * tf_tri_poly(z, z2, z4)));
-}
-
-/* The same from i = 1/x: psi(x) - log x, and both series. */
+/* psi(x) - log x and psi'(x) from i = 1/x, and from x. */
 static inline double tf_psi_mlog_inv(double i) {
   double z = i * i, z2 = z * z, z4 = z2 * z2;
   return -0.5 * i - z * tf_psi_poly(z, z2, z4);
 }
 
-static inline void tf_psi_tri_inv(double i, double *psi, double *tri) {
+static inline double tf_tri_ser_inv(double i) {
   double z = i * i, z2 = z * z, z4 = z2 * z2;
-  *psi = -0.5 * i - z * tf_psi_poly(z, z2, z4);
-  *tri = i * (1.0 + i * (0.5 + i * tf_tri_poly(z, z2, z4)));
+  return i * (1.0 + i * (0.5 + i * tf_tri_poly(z, z2, z4)));
 }
+
+static inline double tf_psi_mlog(double x) { return tf_psi_mlog_inv(1.0 / x); }
+
+static inline double tf_tri_ser(double x) { return tf_tri_ser_inv(1.0 / x); }
 
 /* Digamma and trigamma, x > 0 (lib/growth_psi.c). */
 double tf_digamma(double x);
