@@ -16,8 +16,9 @@
  * Pruning (Fearnhead 2006, sec. 3.3): for each start t the ends e are
  * scanned upward until the bound P(t,e) Q(e+1) P(L >= e-t+1) stays below
  * epsilon times the running sum for 14 consecutive ends; the change
- * probabilities, the count distribution, the growth posterior and sampling use the same
- * candidate ends, so all results are those of one (truncated) model.
+ * probabilities, the count distribution, the growth posterior and
+ * sampling use the same candidate ends, so all results are those of one
+ * (truncated) model.
  * JUMP segments [t, e] for one start t are evaluated with one set of
  * incremental power sums (segment.c, tf_psum), grown by a day as e grows,
  * each fit started from the last evaluation for [t, e-1] with day e's

@@ -35,7 +35,6 @@ int tf_msg_set(char *buf, int code, const char *fmt, ...)
 /* strdup that returns NULL on failure (strdup is not C11). */
 char *tf_strdup(const char *s);
 
-
 /* log|Gamma(x)| without touching the C library's global signgam (lgamma
  * is not thread-safe; lgamma_r is the reentrant form in glibc, musl and
  * the BSDs, declared here because strict C11 headers hide it). */

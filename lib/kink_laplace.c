@@ -463,7 +463,6 @@ fallback:
   return -INFINITY;
 }
 
-
 double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
                          double v, kl_fit *fit) {
   double c = (double)s - 1;
@@ -918,32 +917,23 @@ int tf_kinkl_run(twofold_changes *ch) {
       ch->Q[t] = ch->Fa[t] > -INFINITY && pr[t] > 0
                      ? log(pr[t]) + w.lz - ch->Fa[t]
                      : -INFINITY;
-  }
-  /* otherwise backward over the cache (METHODS A2): the terms against
-   * their largest, one exp each */
-  for (size_t t = n; !w.direct && t-- > 0;) {
-    double mx = -INFINITY, *tm = w.tmp;
-    const double *cl = ch->clogP + ch->off[t];
-    size_t ne = ch->stop[t] - t + 1;
-    for (size_t j = 0; j < ne; j++) {
-      size_t e = t + j, L = j + 1;
-      double l = cl[j];
-      if (l > -INFINITY)
-        l += (e + 1 < n ? tf_lg(&ch->lp, t, L) : tf_lsurv(&ch->lp, t, L)) +
-             ch->Q[e + 1];
-      tm[j] = l;
-      if (l > mx)
-        mx = l;
+  } else {
+    /* backward over the cache (METHODS A2): the terms against their
+     * largest, one exp each */
+    for (size_t t = n; t-- > 0;) {
+      double *tm = w.tmp;
+      const double *cl = ch->clogP + ch->off[t];
+      size_t ne = ch->stop[t] - t + 1;
+      for (size_t j = 0; j < ne; j++) {
+        size_t e = t + j, L = j + 1;
+        double l = cl[j];
+        if (l > -INFINITY)
+          l += (e + 1 < n ? tf_lg(&ch->lp, t, L) : tf_lsurv(&ch->lp, t, L)) +
+               ch->Q[e + 1];
+        tm[j] = l;
+      }
+      ch->Q[t] = tf_lse_array(tm, ne);
     }
-    double acc = -INFINITY;
-    if (mx > -INFINITY) {
-      double sum = 0;
-      for (size_t j = 0; j < ne; j++)
-        if (tm[j] > -INFINITY)
-          sum += exp(tm[j] - mx);
-      acc = mx + log(sum);
-    }
-    ch->Q[t] = acc;
   }
   if (!(ch->Q[0] > -INFINITY)) {
     rc = tf_msg_set(ch->msg, TWOFOLD_ENOCONV,
