@@ -211,12 +211,8 @@ int main(int argc, char **argv) {
         return 2;
       }
     } else if (strcmp(argv[i], "--series") == 0 && i + 1 < argc) {
-      long v = atol(argv[++i]);
-      if (v < 1 || v > BENCHGEN_REGIONS) {
-        fprintf(stderr, "bench-cp: --series wants 1..%d\n", BENCHGEN_REGIONS);
+      if (bench_series_arg("bench-cp", argv[++i], BENCHGEN_REGIONS, &nseries))
         return 2;
-      }
-      nseries = (size_t)v;
     } else if (strcmp(argv[i], "--no-kink") == 0) {
       kink_prune = 0;
     } else if (strcmp(argv[i], "--part") == 0 && i + 1 < argc) {

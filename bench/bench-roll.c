@@ -109,13 +109,8 @@ int main(int argc, char **argv) {
         return 2;
       }
     } else if (strcmp(argv[i], "--series") == 0 && i + 1 < argc) {
-      long v = atol(argv[++i]);
-      if (v < 1 || v > BENCHGEN_REGIONS) {
-        fprintf(stderr, "bench-roll: --series wants 1..%d\n",
-                BENCHGEN_REGIONS);
+      if (bench_series_arg("bench-roll", argv[++i], BENCHGEN_REGIONS, &nseries))
         return 2;
-      }
-      nseries = (size_t)v;
     } else if (strcmp(argv[i], "--window") == 0 && i + 1 < argc) {
       long v = atol(argv[++i]);
       if (v < 2 || v > 365) {

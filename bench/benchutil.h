@@ -4,6 +4,7 @@
 #define TWOFOLD_BENCHUTIL_H
 
 #include <stdio.h>
+#include <stdlib.h>
 #include <sys/resource.h>
 #include <time.h>
 
@@ -31,6 +32,19 @@ static inline double bench_peak_mb(void) {
   if (getrusage(RUSAGE_SELF, &ru) != 0)
     return 0.0;
   return (double)ru.ru_maxrss / 1024.0;
+}
+
+/* The value of --series N for program prog: 0 and *out set for N in
+ * 1..max, else 2 after a message. */
+static inline int bench_series_arg(const char *prog, const char *arg,
+                                   long max, size_t *out) {
+  long v = atol(arg);
+  if (v < 1 || v > max) {
+    fprintf(stderr, "%s: --series wants 1..%ld\n", prog, max);
+    return 2;
+  }
+  *out = (size_t)v;
+  return 0;
 }
 
 /* A machine-readable figure for bench/run.sh: "result<TAB>key<TAB>value". */
