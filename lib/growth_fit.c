@@ -1115,8 +1115,9 @@ typedef struct {
 } nblast;
 
 static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
-                      double slope0, double tol, const nblast *last,
-                      double *mu, double *se, double *slope);
+                      double alt, double slope0, double tol,
+                      const nblast *last, double *mu, double *se,
+                      double *slope);
 
 /* The Cox-Reid adjusted theta: the root of cr_grad below the ML value,
  * bracketed by stepping down (or, given a guess of log theta, first
@@ -1182,7 +1183,8 @@ static double cr_theta(const win_t *w, nbpar *p, int maxit, double tol,
     double se, sl;
     if (a < tml - 0.5) {
       nbpar pf = pa;
-      double th = cr_fast(w, &pf, tml, a, NAN, tol, NULL, mu, &se, &sl);
+      double th =
+          cr_fast(w, &pf, tml, a, NAN, NAN, tol, NULL, mu, &se, &sl);
       if (th > exp(a) && th < exp(b)) {
         *p = pf;
         *slope = sl;
@@ -1407,9 +1409,15 @@ static int nb_joint(const win_t *w, nbpar *p, double tol, double *mu,
  * by the slope).  Given last (the joint fit's last pass, one tiny Newton
  * step before the ML fit, its means still in mu), the first pass is
  * that one, and a non-negative score there is decided again at the ML
- * fit itself.  A guess more than 0.5 below tml (the ML theta at its
- * cap, the adjusted one far below) is started at instead, with the ML
- * beta.  The score is moved to first order by the beta step not yet
+ * fit itself.  A guess more than 0.5 below tml (the ML theta at its cap, the
+ * adjusted one far below) is started at instead, with the ML beta.  So is
+ * alt, the log of the last adjusted theta below the cap in the rolling run,
+ * when the guess is not that far below (the last window's adjusted theta was
+ * at the cap as well) and the score at the ML fit is negative: on the
+ * benchmark districts this is the usual way out of the cap (the score there
+ * tends to 0 and changes sign by about 1e-8) with the root back at 10 to
+ * 1000, where the bracketing search stepping down from the cap took about 30
+ * kernel passes.  The score is moved to first order by the beta step not yet
  * taken (the mixed derivatives), and the size of that move bounds its
  * error: a secant slope is taken only from scores that differ by more
  * than 10 times their bounds.  The fixed point is the root of cr_grad
@@ -1441,8 +1449,9 @@ static int nb_joint(const win_t *w, nbpar *p, double tol, double *mu,
  * non-negative score there: the ML theta, as cr_theta would find it
  * first), and otherwise leaves the tail to cr_theta. */
 static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
-                      double slope0, double tol, const nblast *last,
-                      double *mu, double *se, double *slope) {
+                      double alt, double slope0, double tol,
+                      const nblast *last, double *mu, double *se,
+                      double *slope) {
   int nc = w->nc;
   nbpar q = *p;
   /* a guess more than 0.5 below the ML value: start there, the first
@@ -1509,6 +1518,19 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
           return NAN;
         *slope = NAN;
         return q.theta;
+      }
+      if (!(guess < tml - 0.5) && alt < tml - 0.5 && !tail) {
+        /* no guess below the ML fit (the last window's adjusted theta
+         * was at the cap too) but an earlier one well below: a far
+         * start there, as from a guess */
+        far = 1;
+        guess = alt;
+        last = NULL;
+        q = *p;
+        tau = guess;
+        q.theta = exp(tau);
+        it = -1;
+        continue;
       }
       dtau = isfinite(guess) && guess < tml ? guess - tau : -g / sl;
     } else {
@@ -1618,7 +1640,7 @@ static void res_clear(tf_gres *res, int model, int nc, double level) {
   res->r = res->se = NAN;
   for (int j = 0; j < 7; j++)
     res->b[j] = NAN;
-  res->theta = res->theta_cr = res->cr_slope = NAN;
+  res->theta = res->theta_cr = res->cr_slope = res->cr_alt = NAN;
   res->ll = res->dev = res->pearson = res->disp = NAN;
   res->events = NAN;
   res->used = res->missing = 0;
@@ -1794,15 +1816,16 @@ static void pois_stats(const win_t *w, double r, const double *b,
  * t quantile on the residual degrees of freedom.  See growth.c. */
 static int nb_small(const win_t *w, const nbpar *ml, tf_quant *Q, double df,
                     int maxit, double tol, double *lo, double *hi,
-                    double *theta_cr, double guess, double slope0,
-                    double *slope, const nblast *last, double *mu) {
+                    double *theta_cr, double guess, double alt,
+                    double slope0, double *slope, const nblast *last,
+                    double *mu) {
   nbpar p = *ml;
   double se;
   /* warm (rolling): the secant passes of cr_fast; else, or if they fail,
    * the bracketing search */
   double th = tf_isnan(guess) ? NAN
-                              : cr_fast(w, &p, log(ml->theta), guess, slope0,
-                                        tol, last, mu, &se, slope);
+                              : cr_fast(w, &p, log(ml->theta), guess, alt,
+                                        slope0, tol, last, mu, &se, slope);
   if (tf_isnan(th)) {
     int bad = 0;
     p = *ml;
@@ -2507,8 +2530,9 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
         guess = log(np.theta) + log(warm->theta_cr) - log(warm->theta);
     }
     double slope0 = wuse ? warm->cr_slope : NAN;
+    double alt = wuse ? warm->cr_alt : NAN;
     if (nb_small(&w, &np, Q, res->df, o->max_iter, o->tol,
-                 &res->small[0], &res->small[1], &res->theta_cr, guess,
+                 &res->small[0], &res->small[1], &res->theta_cr, guess, alt,
                  slope0, &res->cr_slope, jl.ok ? &jl : NULL,
                  mu) != 0) {
       free(muheap);
@@ -2516,6 +2540,7 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
                   "small-sample interval: adjusted theta search failed%s%.0f",
                   "", 0.0);
     }
+    res->cr_alt = res->theta_cr < TF_THETA_CAP ? log(res->theta_cr) : alt;
   }
   free(muheap);
   return 0;
