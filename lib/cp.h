@@ -10,26 +10,6 @@
 #include <stdint.h>
 #include <string.h>
 
-/* Two doubles in one register (GCC and Clang vector extensions), for
- * sums whose terms come in independent pairs: each lane does the same
- * operations in the same order as scalar code would, so the results are
- * the same to the bit (x86-64 adds and multiplies pairs with SSE2, which
- * every such processor has, and in ISO C mode, -std=c11, GCC forms no
- * fused multiply-add from them). */
-typedef double tf_v2d __attribute__((vector_size(2 * sizeof(double))));
-static inline tf_v2d tf_v2d_load(const double *p) {
-  tf_v2d v;
-  memcpy(&v, p, sizeof v);
-  return v;
-}
-static inline void tf_v2d_store(double *p, tf_v2d v) {
-  memcpy(p, &v, sizeof v);
-}
-/* p[0..1] += v */
-static inline void tf_v2d_addto(double *p, tf_v2d v) {
-  tf_v2d_store(p, tf_v2d_load(p) + v);
-}
-
 /* The options object. */
 struct twofold_cp_options {
   int kind;
