@@ -66,6 +66,9 @@
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
+#ifdef __SSE2__
+#include <emmintrin.h>
+#endif
 
 /* ------------------------------------------------------------------ */
 /* Small helpers                                                       */
@@ -645,8 +648,16 @@ typedef struct {
   tf_v2d gr, Hrr, Cr, Irr, Sp, Dp, lp, Sl;
 } nbp21;
 
-/* lane-wise comparisons of tf_v2d: all bits set where true */
+/* lane-wise comparisons of tf_v2d: all bits set where true; tf_v2l_all
+ * tests both lanes (with SSE2, from the sign bits in one instruction) */
 typedef long long tf_v2l __attribute__((vector_size(2 * sizeof(long long))));
+static inline int tf_v2l_all(tf_v2l m) {
+#ifdef __SSE2__
+  return _mm_movemask_pd((__m128d)m) == 3;
+#else
+  return m[0] != 0 && m[1] != 0;
+#endif
+}
 
 /* The days of classes ja and jb (lanes 0 and 1) into the class sums of
  * z and the window sums of acc. */
@@ -673,17 +684,20 @@ NB_INLINE void nb_p21_pair(const win_t *w, const nbpar *p, unsigned f,
     tf_v2d y = {y0, y1};
     tf_v2d id, ix = zero, x = thv + y, den = thv + m;
     tf_v2l ok = y == y; /* present days */
+    tf_v2d ratio = one, pr = one;
     if (f & NBK_S) {
       tf_v2d rr = one / (den * x);
-      ok &= (rr > 0.0) & (rr <= DBL_MAX) & (x >= 10.0);
       id = x * rr;
       ix = den * rr;
+      ratio = x * id;
+      pr = acc->lp * ratio;
+      ok &= (rr > 0.0) & (rr <= DBL_MAX) & (x >= 10.0) & (ratio > 1e-100) &
+            (ratio < 1e100) & (pr > 1e-200) & (pr < 1e200);
     } else {
       id = one / den;
     }
     tf_v2d s = zero, h = zero, cc = zero, W = zero, sd = zero, ds = zero;
-    tf_v2d ratio = one;
-    if (ok[0] & ok[1]) {
+    if (tf_v2l_all(ok)) {
       mu[t0] = m[0];
       mu[t1] = m[1];
       if (f & NBK_C) {
@@ -714,8 +728,8 @@ NB_INLINE void nb_p21_pair(const win_t *w, const nbpar *p, unsigned f,
                                                     z4 * (t45 + z2 * (7.0 / 6.0)))));
           ds = tri - c->ps1 + m * id * c->ith - (m - y) * id * id;
         }
-        ratio = x * id;
         sd = c->cth + ps + (m - y) * id;
+        acc->lp = pr;
       }
     } else {
       size_t tl[2] = {t0, t1};
@@ -744,7 +758,15 @@ NB_INLINE void nb_p21_pair(const win_t *w, const nbpar *p, unsigned f,
           sd[l] = nb_sday_part(c, yl, ml, idl, ixl, (f & NBK_DS) ? &dsl : NULL,
                                &rl, 0);
           ds[l] = dsl;
-          ratio[l] = rl;
+          if (rl > 1e-100 && rl < 1e100) {
+            acc->lp[l] *= rl;
+            if (!(acc->lp[l] > 1e-200 && acc->lp[l] < 1e200)) {
+              acc->Sl[l] += log(acc->lp[l]);
+              acc->lp[l] = 1.0;
+            }
+          } else {
+            acc->Sl[l] += log(rl);
+          }
         }
       }
     }
@@ -761,24 +783,6 @@ NB_INLINE void nb_p21_pair(const win_t *w, const nbpar *p, unsigned f,
     if (f & NBK_S) {
       acc->Sp += sd;
       acc->Dp += ds;
-      tf_v2d pr = acc->lp * ratio;
-      tf_v2l in = (ratio > 1e-100) & (ratio < 1e100) & (pr > 1e-200) &
-                  (pr < 1e200);
-      if (in[0] & in[1]) {
-        acc->lp = pr;
-      } else {
-        for (int l = 0; l < 2; l++) {
-          if (ratio[l] > 1e-100 && ratio[l] < 1e100) {
-            acc->lp[l] *= ratio[l];
-            if (!(acc->lp[l] > 1e-200 && acc->lp[l] < 1e200)) {
-              acc->Sl[l] += log(acc->lp[l]);
-              acc->lp[l] = 1.0;
-            }
-          } else {
-            acc->Sl[l] += log(ratio[l]);
-          }
-        }
-      }
     }
   }
   z->G[ja] = G[0];
