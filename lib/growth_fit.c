@@ -1374,9 +1374,21 @@ typedef struct {
 } nblast;
 
 static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
-                      double alt, double slope0, double tol,
+                      double alt, double slope0, double curv0, double tol,
                       const nblast *last, double *mu, double *se,
-                      double *slope);
+                      double *slope, double *curv);
+
+/* The step d to the root of the quadratic model g + s d + c d^2 / 2 (s
+ * < 0), from the Newton step -g/s corrected twice by the curvature, or
+ * the Newton step itself where the correction would be large (above 30%
+ * of s) or c is not known. */
+static double cr_qstep(double g, double s, double c) {
+  double d0 = -g / s;
+  if (!isfinite(c) || !(fabs(0.5 * c * d0) <= 0.3 * fabs(s)))
+    return d0;
+  double d = -g / (s + 0.5 * c * d0);
+  return -g / (s + 0.5 * c * d);
+}
 
 /* The Cox-Reid adjusted theta: the root of cr_grad below the ML value,
  * bracketed by stepping down (or, given a guess of log theta, first
@@ -1439,11 +1451,11 @@ static double cr_theta(const win_t *w, nbpar *p, int maxit, double tol,
      * is kept if it lies inside the bracket, else false position goes
      * on.  (From the false-position point they would mostly start in
      * the flat tail, where g(b) is nearly 0, and give up.) */
-    double se, sl;
+    double se, sl, cvf;
     if (a < tml - 0.5) {
       nbpar pf = pa;
-      double th =
-          cr_fast(w, &pf, tml, a, NAN, NAN, tol, NULL, mu, &se, &sl);
+      double th = cr_fast(w, &pf, tml, a, NAN, NAN, NAN, tol, NULL, mu, &se,
+                          &sl, &cvf);
       if (th > exp(a) && th < exp(b)) {
         *p = pf;
         *slope = sl;
@@ -1679,16 +1691,28 @@ static int nb_joint(const win_t *w, nbpar *p, double tol, double *mu,
  * kernel passes.  The score is moved to first order by the beta step not yet
  * taken (the mixed derivatives), and the size of that move bounds its
  * error: a secant slope is taken only from scores that differ by more
- * than 10 times their bounds.  The fixed point is the root of cr_grad
+ * than 10 times their bounds.  The steps use the curvature of the
+ * score in tau too (curv0, the previous window's, until two secant
+ * slopes of this window at least 1e-4 apart give their own): a secant
+ * slope is that of its step's midpoint, moved to the current tau by the
+ * curvature, and the step goes to the root of the quadratic model
+ * (cr_qstep); the first step from a far guess takes the last window's
+ * slope as that of the root.  Where the curvature would move a slope by
+ * more than 30%, the plain secant step (on the first 20 benchmark
+ * districts 4.7 passes instead of 5.0 from a far guess, 3.4 instead of
+ * 3.8 from the ML fit).  The fixed point is the root of cr_grad
  * with beta = beta_theta.  Stops, after those steps, once the beta step
  * is below tol (Newton decrement), the score's bound below 1e-9 times
  * the slope and the tau step below 1e-8 (or below 1e-5 with the error
  * it leaves, by the ratio of the last two steps, below 1e-9), all with
- * a secant slope of this window (in the flat tail of large theta the
- * adjusted score tends to 0, and a step from the previous window's slope
- * alone can look converged); then the expected-information SE of r at
- * the result goes to *se.  p (in: the ML fit) gets beta at the adjusted
- * theta; *slope the last secant slope.  Returns the adjusted theta, or
+ * a slope of this window at tau (moved there by the curvature) or from
+ * a secant over at most 0.05 in tau (in the flat tail of large theta
+ * the adjusted score tends to 0, and a step from the previous window's
+ * slope alone can look converged; a secant over a long step, from the
+ * ML fit, is too far from the slope at tau); then the expected-
+ * information SE of r at the result goes to *se.  p (in: the ML fit)
+ * gets beta at the adjusted theta; *slope the last secant slope, *curv
+ * the curvature (this window's, else curv0).  Returns the adjusted theta, or
  * NAN when it does not converge in 30 passes, a step is wild, theta
  * goes above 1e4 (the flat tail) or tau leaves (tml - 20, tml): the
  * caller then uses cr_theta.
@@ -1708,9 +1732,9 @@ static int nb_joint(const win_t *w, nbpar *p, double tol, double *mu,
  * non-negative score there: the ML theta, as cr_theta would find it
  * first), and otherwise leaves the tail to cr_theta. */
 static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
-                      double alt, double slope0, double tol,
+                      double alt, double slope0, double curv0, double tol,
                       const nblast *last, double *mu, double *se,
-                      double *slope) {
+                      double *slope, double *curv) {
   int nc = w->nc;
   nbpar q = *p;
   /* a guess more than 0.5 below the ML value: start there, the first
@@ -1721,6 +1745,12 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
   /* without a previous slope, -1 (about its size in short windows) */
   double sl = slope0 < 0.0 && isfinite(slope0) ? slope0 : -1.0;
   int own = 0; /* a secant slope of this window seen */
+  /* the curvature of the score in tau: this window's (from its last two
+   * secant slopes, at the midpoints mprev and of the last step), else
+   * the last window's */
+  double cv = isfinite(curv0) ? curv0 : NAN, slprev = NAN, mprev = NAN;
+  int owncv = 0;
+  double span = INFINITY; /* the tau step the last secant slope spans */
   int tail = 0; /* the flat tail predicted: pass 0 at the ML fit decides */
   const double tmax = log(1e4);
   q.theta = exp(tau);
@@ -1757,7 +1787,10 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
     double eg = fabs(corr);
     double dtau;
     if (it == 0 && far) {
-      dtau = -g / sl;
+      /* sl is the slope at the last window's root, about where this
+       * one's lies: with the curvature, the slope at tau is sl - cv d
+       * for the step d to the root, so g + sl d - cv d^2 / 2 = 0 */
+      dtau = cr_qstep(g, sl, -cv);
     } else if (it == 0) {
       /* at the ML fit, beta = beta_theta: the adjusted score there */
       if (tail && g < 0.0)
@@ -1795,12 +1828,37 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
     } else {
       /* a secant slope only from differences well above the errors */
       double s2 = (g - gprev) / (tau - tprev);
+      int fresh = 0;
       if (!tf_isnan(gprev) && s2 < 0.0 && isfinite(s2) &&
           fabs(g - gprev) > 10.0 * (eg + egprev)) {
+        /* the curvature from two secant slopes whose midpoints lie at
+         * least 1e-4 apart (closer, their errors would dominate it), and
+         * only of the size seen (|cv| about |sl| in short windows; at
+         * most 20 |sl| taken) */
+        double mid = 0.5 * (tau + tprev);
+        if (isfinite(slprev) && fabs(mid - mprev) >= 1e-4) {
+          double c2 = (s2 - slprev) / (mid - mprev);
+          if (isfinite(c2) && fabs(c2) <= 20.0 * fabs(s2)) {
+            cv = c2;
+            owncv = 1;
+          }
+        }
+        slprev = s2;
+        mprev = mid;
+        span = fabs(tau - tprev);
         sl = s2;
         own = 1;
+        fresh = 1;
       }
-      dtau = -g / sl;
+      /* this window's last secant slope is that of its midpoint mprev:
+       * at tau it is sl + cv (tau - mprev) (where that moves it by less
+       * than 30%) */
+      double sk = own && isfinite(cv) ? sl + cv * (tau - mprev) : sl;
+      dtau = own && isfinite(cv) && fabs(sk - sl) <= 0.3 * fabs(sl)
+                 ? (fresh ? cr_qstep(g, sk, cv) : -g / sk)
+                 : -g / sl;
+      if (own && isfinite(cv) && fabs(sk - sl) <= 0.3 * fabs(sl))
+        span = 0.0; /* a slope at tau itself */
     }
     tprev = tau;
     gprev = g;
@@ -1855,13 +1913,14 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
     double left = fabs(dtprev) < 1e-3 ? fabs(dtau) * fabs(dtau / dtprev)
                                        : INFINITY;
     dtprev = dtau;
-    if (own && lam2 < tol && eg < 1e-9 * fabs(sl) &&
+    if (own && span <= 0.05 && lam2 < tol && eg < 1e-9 * fabs(sl) &&
         (fabs(dtau) < 1e-8 || (left < 1e-9 && fabs(dtau) < 1e-5))) {
       nb_stats(w, &q, se, NULL, NULL, mu);
       if (!isfinite(*se))
         return NAN;
       *p = q;
       *slope = sl;
+      *curv = owncv ? cv : curv0;
       return q.theta;
     }
   }
@@ -1899,7 +1958,8 @@ static void res_clear(tf_gres *res, int model, int nc, double level) {
   res->r = res->se = NAN;
   for (int j = 0; j < 7; j++)
     res->b[j] = NAN;
-  res->theta = res->theta_cr = res->cr_slope = res->cr_alt = NAN;
+  res->theta = res->theta_cr = res->cr_slope = res->cr_curv = NAN;
+  res->cr_alt = NAN;
   res->ll = res->dev = res->pearson = res->disp = NAN;
   res->events = NAN;
   res->used = res->missing = 0;
@@ -2076,16 +2136,19 @@ static void pois_stats(const win_t *w, double r, const double *b,
 static int nb_small(const win_t *w, const nbpar *ml, tf_quant *Q, double df,
                     int maxit, double tol, double *lo, double *hi,
                     double *theta_cr, double guess, double alt,
-                    double slope0, double *slope, const nblast *last,
-                    double *mu) {
+                    double slope0, double curv0, double *slope,
+                    double *curv, const nblast *last, double *mu) {
   nbpar p = *ml;
   double se;
   /* warm (rolling): the secant passes of cr_fast; else, or if they fail,
    * the bracketing search */
-  double th = tf_isnan(guess) ? NAN
-                              : cr_fast(w, &p, log(ml->theta), guess, alt,
-                                        slope0, tol, last, mu, &se, slope);
+  *curv = NAN;
+  double th = tf_isnan(guess)
+                  ? NAN
+                  : cr_fast(w, &p, log(ml->theta), guess, alt, slope0, curv0,
+                            tol, last, mu, &se, slope, curv);
   if (tf_isnan(th)) {
+    *curv = NAN;
     int bad = 0;
     p = *ml;
     th = cr_theta(w, &p, maxit, tol, &bad, guess, mu, slope);
@@ -2789,11 +2852,12 @@ int tf_growth_core(const struct twofold_fit_options *o, const double *y,
         guess = log(np.theta) + log(warm->theta_cr) - log(warm->theta);
     }
     double slope0 = wuse ? warm->cr_slope : NAN;
+    double curv0 = wuse ? warm->cr_curv : NAN;
     double alt = wuse ? warm->cr_alt : NAN;
     if (nb_small(&w, &np, Q, res->df, o->max_iter, o->tol,
                  &res->small[0], &res->small[1], &res->theta_cr, guess, alt,
-                 slope0, &res->cr_slope, jl.ok ? &jl : NULL,
-                 mu) != 0) {
+                 slope0, curv0, &res->cr_slope, &res->cr_curv,
+                 jl.ok ? &jl : NULL, mu) != 0) {
       free(muheap);
       return fail(res, TWOFOLD_ENOCONV,
                   "small-sample interval: adjusted theta search failed%s%.0f",

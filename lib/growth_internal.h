@@ -65,6 +65,8 @@ typedef struct tf_gres {
   double theta;     /* INFINITY for Poisson models */
   double theta_cr;  /* Cox-Reid adjusted theta used by the small interval */
   double cr_slope;  /* slope of its equation in log theta (a warm start) */
+  double cr_curv;   /* and its curvature, the slope's derivative (NAN:
+                     * none measured) */
   double cr_alt;    /* log of the last theta_cr below the cap in a rolling
                      * run, this window's or an earlier one's (NAN: none) */
   double ll, dev, pearson, disp;
