@@ -629,16 +629,17 @@ NB_INLINE void nb_kernel_n(const win_t *w, const nbpar *p, unsigned f,
  * (the rolling default), two weekday classes at a time in the lanes of
  * a tf_v2d: classes (0, 1), (2, 3), (4, 5), and class 6 in both lanes of
  * a fourth pair whose second lane is dropped.  Each lane computes a
- * day's terms with the operations of nb_kernel_n in the same order, but
- * for the first mean of a class, e^{b_j + r t0}, from tf_exp_v2d (about
- * 1 ulp, where the C library's exp is within about half of one); the
- * window sums (gr, Hrr, Cr, Irr, S, DS) are added per lane and then
- * across, an order of the same additions that differs from
+ * day's terms with the operations of nb_kernel_n in the same order, so
+ * the class sums (G, H, Hr, C, I, Ir) are those of nb_kernel_n to the
+ * bit; the window sums (gr, Hrr, Cr, Irr, S, DS) are added per lane and
+ * then across, an order of the same additions that differs from
  * nb_kernel_n's by rounding only (about 1e-16 relative).  On the first
  * 600 benchmark districts the rolling rates and interval ends stay
- * within 7.7e-11 of nb_kernel_n's, relative to the larger of |r| and
+ * within 9.7e-11 of nb_kernel_n's, relative to the larger of |r| and
  * the interval's width (the fits' own tolerances), with the same
- * statuses; about 18% fewer instructions for the rolling fits.  A day pair
+ * statuses.  (An inline two-lane exponential for the first means, with
+ * fewer instructions than two calls of exp, was no faster in
+ * interleaved runs, and was left out.)  A day pair
  * with a missing day, theta + y below 10 (psidiff), a product out of
  * range for nb_recip2's one division, or a ratio out of [1e-100, 1e100]
  * is done lane by lane with nb_kernel_n's own code.  Not for NBK_LL, an
@@ -677,7 +678,7 @@ NB_INLINE void nb_p21_pair(const win_t *w, const nbpar *p, unsigned f,
   for (size_t k = 0; k < N / 7; k++, tt += seven) {
     size_t t0 = ta + 7 * k, t1 = tb + 7 * k;
     if (k == 0)
-      m = tf_exp_v2d((tf_v2d){p->b[ja], p->b[jb]} + p->r * tt);
+      m = (tf_v2d){exp(p->b[ja] + p->r * tt[0]), exp(p->b[jb] + p->r * tt[1])};
     else
       m *= e2;
     double y0 = w->y[t0], y1 = w->y[t1];

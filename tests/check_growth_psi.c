@@ -6,12 +6,7 @@
  * recurrence identities psi(x+1) = psi(x) + 1/x and psi'(x+1) =
  * psi'(x) - 1/x^2 (Abramowitz & Stegun 1964, 6.3.5 and 6.4.6) across the
  * switch to the asymptotic series at x = 10, and psi(1) = -Euler's
- * constant, psi'(1) = pi^2/6 (A&S 6.3.2, 6.4.2).
- * And the inline exponential of the rolling negative-binomial kernel
- * (tf_exp_v2d, lib/internal.h) against the C library's long double expl
- * (64-bit significand, so its own error is far below a double's ulp),
- * to 1.5 ulp of the double result over |x| <= 708, with its fallback to
- * exp outside |x| <= 700 and for NaN and infinities. */
+ * constant, psi'(1) = pi^2/6 (A&S 6.3.2, 6.4.2). */
 #include "growth_internal.h"
 
 #include <check.h>
@@ -40,49 +35,6 @@ START_TEST(against_gsl) {
 }
 END_TEST
 
-/* |a - ref| in units of the last place of a double near ref */
-static double ulps(double a, long double ref) {
-  long double ulp = ldexpl(1.0L, ilogbl(ref) - 52);
-  return (double)(fabsl((long double)a - ref) / ulp);
-}
-
-START_TEST(exp_against_expl) {
-  double worst = 0.0, at = 0.0;
-  uint64_t st = 20261202;
-  for (long i = 0; i < 300000; i++) {
-    /* a fixed-seed LCG (Knuth's MMIX constants); three ranges: all of
-     * |x| <= 708, |x| <= 30 and |x| <= 1 */
-    st = st * 6364136223846793005u + 1442695040888963407u;
-    double u = (double)(st >> 11) / 9007199254740992.0 - 0.5;
-    double x = u * (i % 3 == 0 ? 1416.0 : i % 3 == 1 ? 60.0 : 2.0);
-    tf_v2d v = tf_exp_v2d((tf_v2d){x, -x});
-    for (int l = 0; l < 2; l++) {
-      double xl = l ? -x : x, e = ulps(v[l], expl((long double)xl));
-      if (e > worst) {
-        worst = e;
-        at = xl;
-      }
-      ck_assert_msg(e <= 1.5, "exp(%.17g) = %.17g, %.3f ulp from expl", xl,
-                    v[l], e);
-    }
-  }
-  printf("inline exp: worst %.3f ulp (at x = %.17g) from expl\n", worst, at);
-  /* exact points and the fallback */
-  tf_v2d a = tf_exp_v2d((tf_v2d){0.0, -0.0});
-  ck_assert(a[0] == 1.0 && a[1] == 1.0);
-  a = tf_exp_v2d((tf_v2d){1e-300, -1e-300});
-  ck_assert(a[0] == 1.0 && a[1] == 1.0);
-  a = tf_exp_v2d((tf_v2d){700.5, -745.2});
-  ck_assert(a[0] == exp(700.5) && a[1] == exp(-745.2));
-  a = tf_exp_v2d((tf_v2d){NAN, INFINITY});
-  ck_assert(isnan(a[0]) && a[1] == INFINITY);
-  a = tf_exp_v2d((tf_v2d){-INFINITY, 710.0});
-  ck_assert(a[0] == 0.0 && a[1] == INFINITY);
-  ck_assert(ulps(tf_exp_v2d((tf_v2d){700.0, 1.0})[0], expl(700.0L)) <= 1.5);
-  ck_assert(ulps(tf_exp_v2d((tf_v2d){-700.0, 1.0})[0], expl(-700.0L)) <= 1.5);
-}
-END_TEST
-
 START_TEST(identities) {
   const double euler = 0.57721566490153286061, pi = 3.14159265358979323846;
   ck_assert(fabs(tf_digamma(1.0) + euler) < 1e-15);
@@ -104,7 +56,6 @@ int main(void) {
   TCase *tc = tcase_create("psi");
   tcase_add_test(tc, against_gsl);
   tcase_add_test(tc, identities);
-  tcase_add_test(tc, exp_against_expl);
   suite_add_tcase(s, tc);
   SRunner *sr = srunner_create(s);
   srunner_run_all(sr, CK_NORMAL);
