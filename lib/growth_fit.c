@@ -516,6 +516,57 @@ typedef struct {
 enum { NBK_BETA = 1, NBK_C = 2, NBK_I = 4, NBK_S = 8, NBK_DS = 16,
        NBK_LL = 32 };
 
+/* One present day's terms of a kernel pass (flags f) at mean m: id =
+ * 1/(theta + m), the terms s, h of the beta score and information, cc
+ * of the mixed derivative, W of the expected information, and sd, ds
+ * of the theta score and its derivative, whole (nb_sday) or without its
+ * logarithm, whose argument goes to ratio (nb_sday_part); c is read only
+ * with NBK_S.  Shared by nb_kernel_n and the lanes nb_kernel_p21 takes
+ * one at a time. */
+typedef struct {
+  double id, s, h, cc, W, sd, ds, ratio;
+} nbday;
+
+NB_INLINE void nb_day(const nbth *c, unsigned f, double th, double y,
+                      double m, int whole, nbday *o) {
+  double id, ix = 0.0;
+  if (f & NBK_S)
+    nb_recip2(th, m, y, &id, &ix);
+  else
+    id = 1.0 / (th + m);
+  o->id = id;
+  if (f & NBK_BETA) {
+    o->s = th * (y - m) * id;
+    o->h = th * m * (th + y) * id * id;
+  }
+  if (f & NBK_C)
+    o->cc = th * m * (y - m) * id * id;
+  if (f & NBK_I)
+    o->W = th * m * id;
+  if (f & NBK_S) {
+    o->ds = 0.0;
+    o->ratio = 1.0;
+    double *ds = (f & NBK_DS) ? &o->ds : NULL;
+    o->sd = whole ? nb_sday(c, y, m, id, ix, ds)
+                  : nb_sday_part(c, y, m, id, ix, ds, &o->ratio, 0);
+  }
+}
+
+/* The running product lp of the days' ratios (in [1e-200, 1e200]),
+ * folded into the sum of logarithms Sl before it leaves that range; a
+ * ratio outside [1e-100, 1e100] by its own logarithm. */
+NB_INLINE void nb_ratio_add(double *lp, double *Sl, double ratio) {
+  if (ratio > 1e-100 && ratio < 1e100) {
+    *lp *= ratio;
+    if (!(*lp > 1e-200 && *lp < 1e200)) {
+      *Sl += log(*lp);
+      *lp = 1.0;
+    }
+  } else {
+    *Sl += log(ratio);
+  }
+}
+
 NB_INLINE void nb_kernel_n(const win_t *w, const nbpar *p, unsigned f,
                            double *mu, nbsums *z, int nc, size_t n) {
   double th = p->theta;
@@ -554,54 +605,35 @@ NB_INLINE void nb_kernel_n(const win_t *w, const nbpar *p, unsigned f,
       if (tf_isnan(y))
         continue;
       mu[t] = m;
-      double id, ix = 0.0;
-      if (f & NBK_S)
-        nb_recip2(th, m, y, &id, &ix);
-      else
-        id = 1.0 / (th + m);
+      nbday q;
+      nb_day(&c, f, th, y, m, comp, &q);
       if (f & NBK_C)
-        mu[w->n + t] = id; /* for cr_score */
+        mu[w->n + t] = q.id; /* for cr_score */
       if (f & NBK_BETA) {
-        double s = th * (y - m) * id;
-        double h = th * m * (th + y) * id * id;
-        G += s;
-        gr += s * tt;
-        H += h;
-        Hr += h * tt;
-        Hrr += h * tt * tt;
+        G += q.s;
+        gr += q.s * tt;
+        H += q.h;
+        Hr += q.h * tt;
+        Hrr += q.h * tt * tt;
       }
       if (f & NBK_C) {
-        double cc = th * m * (y - m) * id * id;
-        C += cc;
-        Cr += cc * tt;
+        C += q.cc;
+        Cr += q.cc * tt;
       }
       if (f & NBK_I) {
-        double W = th * m * id;
-        I += W;
-        Ir += W * tt;
-        Irr += W * tt * tt;
+        I += q.W;
+        Ir += q.W * tt;
+        Irr += q.W * tt * tt;
       }
       if (f & NBK_S) {
-        double ds = 0.0;
         if (comp) {
-          double sd = nb_sday(&c, y, m, id, ix, (f & NBK_DS) ? &ds : NULL);
-          ks_add2(&S, sd);
+          ks_add2(&S, q.sd);
           if (f & NBK_DS)
-            ks_add2(&D, ds);
+            ks_add2(&D, q.ds);
         } else {
-          double ratio;
-          Sp += nb_sday_part(&c, y, m, id, ix, (f & NBK_DS) ? &ds : NULL,
-                             &ratio, 0);
-          Dp += ds;
-          if (ratio > 1e-100 && ratio < 1e100) {
-            lp *= ratio;
-            if (!(lp > 1e-200 && lp < 1e200)) {
-              Sl += log(lp);
-              lp = 1.0;
-            }
-          } else {
-            Sl += log(ratio);
-          }
+          Sp += q.sd;
+          Dp += q.ds;
+          nb_ratio_add(&lp, &Sl, q.ratio);
         }
       }
       if (f & NBK_LL) {
@@ -739,35 +771,25 @@ NB_INLINE void nb_p21_pair(const win_t *w, const nbpar *p, unsigned f,
         if (tf_isnan(yl))
           continue; /* no terms: the sums add zeros, the product 1 */
         mu[tl[l]] = ml;
-        double idl, ixl = 0.0;
-        if (f & NBK_S)
-          nb_recip2(th, ml, yl, &idl, &ixl);
-        else
-          idl = 1.0 / (th + ml);
+        nbday q;
+        nb_day(c, f, th, yl, ml, 0, &q);
         if (f & NBK_C)
-          mu[N + tl[l]] = idl;
+          mu[N + tl[l]] = q.id;
         if (f & NBK_BETA) {
-          s[l] = th * (yl - ml) * idl;
-          h[l] = th * ml * (th + yl) * idl * idl;
+          s[l] = q.s;
+          h[l] = q.h;
         }
         if (f & NBK_C)
-          cc[l] = th * ml * (yl - ml) * idl * idl;
+          cc[l] = q.cc;
         if (f & NBK_I)
-          W[l] = th * ml * idl;
+          W[l] = q.W;
         if (f & NBK_S) {
-          double dsl = 0.0, rl;
-          sd[l] = nb_sday_part(c, yl, ml, idl, ixl, (f & NBK_DS) ? &dsl : NULL,
-                               &rl, 0);
-          ds[l] = dsl;
-          if (rl > 1e-100 && rl < 1e100) {
-            acc->lp[l] *= rl;
-            if (!(acc->lp[l] > 1e-200 && acc->lp[l] < 1e200)) {
-              acc->Sl[l] += log(acc->lp[l]);
-              acc->lp[l] = 1.0;
-            }
-          } else {
-            acc->Sl[l] += log(rl);
-          }
+          sd[l] = q.sd;
+          ds[l] = q.ds;
+          double lpl = acc->lp[l], sll = acc->Sl[l];
+          nb_ratio_add(&lpl, &sll, q.ratio);
+          acc->lp[l] = lpl;
+          acc->Sl[l] = sll;
         }
       }
     }
