@@ -269,6 +269,12 @@ static inline int cls(const win_t *w, size_t t) {
   return w->nc == 7 ? (int)((w->wd0 + t) % 7) : 0;
 }
 
+/* The first day of weekday class j (0..6) with weekday effects (w->wd0
+ * in 0..6: no division). */
+static inline size_t cls_first(const win_t *w, int j) {
+  return (size_t)(j >= w->wd0 ? j - w->wd0 : j - w->wd0 + 7);
+}
+
 static inline double offv(const win_t *w, size_t t) {
   return w->off ? w->off[t] : 0.0;
 }
@@ -589,9 +595,7 @@ NB_INLINE void nb_kernel_n(const win_t *w, const nbpar *p, unsigned f,
    * outside [1e-100, 1e100] by its own log) */
   double lp = 1.0, Sl = 0.0;
   for (int j = 0; j < nc; j++) {
-    /* the first day of class j (w->wd0 in 0..6: no division) */
-    size_t t0 = nc == 7 ? (size_t)(j >= w->wd0 ? j - w->wd0 : j - w->wd0 + 7)
-                        : 0;
+    size_t t0 = nc == 7 ? cls_first(w, j) : 0; /* class j's first day */
     double G = 0.0, H = 0.0, Hr = 0.0, C = 0.0, I = 0.0, Ir = 0.0;
     double m = 0.0;
     unsigned k = 0;
@@ -674,9 +678,9 @@ NB_INLINE void nb_kernel_n(const win_t *w, const nbpar *p, unsigned f,
  * interleaved runs, and was left out.)  A day pair
  * with a missing day, theta + y below 10 (psidiff), a product out of
  * range for nb_recip2's one division, or a ratio out of [1e-100, 1e100]
- * is done lane by lane with nb_kernel_n's own code.  Not for NBK_LL, an
- * offset, or NBK_S at theta >= 1e3 (compensated sums): nb_kernel takes
- * nb_kernel_n there. */
+ * is done lane by lane with nb_kernel_n's own terms (nb_day).  Not for
+ * NBK_LL, an offset, or NBK_S at theta >= 1e3 (compensated sums):
+ * nb_kernel takes nb_kernel_n there. */
 typedef struct {
   tf_v2d gr, Hrr, Cr, Irr, Sp, Dp, lp, Sl;
 } nbp21;
@@ -701,8 +705,7 @@ NB_INLINE void nb_p21_pair(const win_t *w, const nbpar *p, unsigned f,
   const tf_v2d zero = {0.0, 0.0}, one = {1.0, 1.0};
   double th = p->theta;
   const tf_v2d thv = {th, th};
-  size_t ta = (size_t)(ja >= w->wd0 ? ja - w->wd0 : ja - w->wd0 + 7);
-  size_t tb = (size_t)(jb >= w->wd0 ? jb - w->wd0 : jb - w->wd0 + 7);
+  size_t ta = cls_first(w, ja), tb = cls_first(w, jb);
   tf_v2d G = zero, H = zero, Hr = zero, C = zero, I = zero, Ir = zero;
   tf_v2d m = zero, tt = {(double)(int)ta, (double)(int)tb};
   const tf_v2d seven = {7.0, 7.0};
@@ -864,7 +867,8 @@ NB_INLINE void nb_kernel_p21(const win_t *w, const nbpar *p, unsigned f,
   z->ll = 0.0;
 }
 
-/* nb_kernel_n with the window's classes and length; 21-day windows with
+/* The pass over the window: nb_kernel_p21 where it applies, else
+ * nb_kernel_n with the window's classes and length, 21-day windows with
  * weekday effects (the rolling default) with both known at compile
  * time, so that the three days of each class are unrolled. */
 NB_INLINE void nb_kernel(const win_t *w, const nbpar *p, unsigned f,
@@ -1309,8 +1313,7 @@ static double cr_score(const win_t *w, double th, const nbsums *z,
     tf_v2d acc[2] = {zero, zero};
     for (int q = 0; q < 4; q++) {
       int ja = q < 3 ? 2 * q : 6, jb = q < 3 ? 2 * q + 1 : 6, a = q == 3;
-      size_t ta = (size_t)(ja >= w->wd0 ? ja - w->wd0 : ja - w->wd0 + 7);
-      size_t tb = (size_t)(jb >= w->wd0 ? jb - w->wd0 : jb - w->wd0 + 7);
+      size_t ta = cls_first(w, ja), tb = cls_first(w, jb);
       tf_v2d cbv = {cb[ja], cb[jb]}, tbv = {tbar[ja], tbar[jb]};
       tf_v2d iIv = {iI[ja], iI[jb]};
       tf_v2d tt = {(double)(int)ta, (double)(int)tb};
@@ -1340,9 +1343,7 @@ static double cr_score(const win_t *w, double th, const nbsums *z,
   }
   size_t step = nc == 7 ? 7 : 1;
   for (int j = 0; j < nc; j++) {
-    /* the first day of class j (w->wd0 in 0..6: no division) */
-    size_t t0 = nc == 7 ? (size_t)(j >= w->wd0 ? j - w->wd0 : j - w->wd0 + 7)
-                        : 0;
+    size_t t0 = nc == 7 ? cls_first(w, j) : 0; /* class j's first day */
     for (size_t t = t0; t < w->n; t += step) {
       if (tf_isnan(w->y[t]))
         continue;
@@ -1877,11 +1878,12 @@ static double cr_fast(const win_t *w, nbpar *p, double tml, double guess,
        * at tau it is sl + cv (tau - mprev) (where that moves it by less
        * than 30%) */
       double sk = own && isfinite(cv) ? sl + cv * (tau - mprev) : sl;
-      dtau = own && isfinite(cv) && fabs(sk - sl) <= 0.3 * fabs(sl)
-                 ? (fresh ? cr_qstep(g, sk, cv) : -g / sk)
-                 : -g / sl;
-      if (own && isfinite(cv) && fabs(sk - sl) <= 0.3 * fabs(sl))
+      if (own && isfinite(cv) && fabs(sk - sl) <= 0.3 * fabs(sl)) {
+        dtau = fresh ? cr_qstep(g, sk, cv) : -g / sk;
         span = 0.0; /* a slope at tau itself */
+      } else {
+        dtau = -g / sl;
+      }
     }
     tprev = tau;
     gprev = g;
@@ -2171,7 +2173,6 @@ static int nb_small(const win_t *w, const nbpar *ml, tf_quant *Q, double df,
                   : cr_fast(w, &p, log(ml->theta), guess, alt, slope0, curv0,
                             tol, last, mu, &se, slope, curv);
   if (tf_isnan(th)) {
-    *curv = NAN;
     int bad = 0;
     p = *ml;
     th = cr_theta(w, &p, maxit, tol, &bad, guess, mu, slope);

@@ -78,5 +78,4 @@ static inline void tf_v2d_addto(double *p, tf_v2d v) {
   tf_v2d_store(p, tf_v2d_load(p) + v);
 }
 
-
 #endif
