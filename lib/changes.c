@@ -436,11 +436,19 @@ static void pool_free(twofold_changes *ch) {
   ch->poolcap = 0;
 }
 
+/* The buffer of backward()'s T values, kept between JUMP and LEVEL runs. */
+static void ct_free(twofold_changes *ch) {
+  free(ch->ct);
+  ch->ct = NULL;
+  ch->ctcap = 0;
+}
+
 void twofold_changes_free(twofold_changes *ch) {
   if (!ch)
     return;
   changes_clear(ch);
   pool_free(ch);
+  ct_free(ch);
   tf_lenprior_free(&ch->lp);
   free(ch);
 }
@@ -494,16 +502,34 @@ static inline double seg_prior(const twofold_changes *ch, size_t s, size_t e) {
   return e + 1 < ch->n ? tf_lg(&ch->lp, s, L) : tf_lsurv(&ch->lp, s, L);
 }
 
+/* The backward recursion (METHODS A2), which also leaves in ch->ct, per cache
+ * entry, T(s, e) = P(s, e) g(e - s + 1) Q(e + 1) / Q(s) (0 where
+ * impossible) for tf_cp_results: each term is taken against the running
+ * largest as the sum is formed, e^{term - m}, and multiplied by e^{m -
+ * Q(s)} once Q(s) is known, one exp per change of m rather than one per
+ * entry (a buffer kept from run to run). */
 static int backward(twofold_changes *ch) {
   size_t n = ch->n;
   const tf_cpdata *d = &ch->d;
   double leps = ch->opt.prune > 0 ? log(ch->opt.prune) : -INFINITY;
   double lnmax = log((double)n + 1);
+  size_t ctcap = ch->ctcap;
+  double *ct = ch->ct;
+  /* where the running largest changed for the current start: entry index
+   * and the new largest */
+  size_t *mi = malloc(n * sizeof *mi);
+  double *mv = malloc(n * sizeof *mv);
+  if (!mi || !mv) {
+    free(mi);
+    free(mv);
+    return TWOFOLD_ENOMEM;
+  }
   ch->Q[n] = 0;
+  int rc = 0;
   /* The cache is filled from t = n-1 down, contiguous per start. */
   for (size_t t = n; t-- > 0;) {
     double am = -INFINITY, as = 0; /* running sum e^am * as */
-    size_t run = 0, e = t;
+    size_t run = 0, e = t, nm = 0;
     double b = d->rmean, bprev = NAN;
     tf_psum ps; /* JUMP: the power sums of the segments starting at t */
     tf_psum_init(&ps, t, b);
@@ -524,11 +550,35 @@ static int backward(twofold_changes *ch) {
           bprev = b1;
         }
       }
-      int rc = cache_push(ch, lp, b, v);
+      size_t k = ch->ncache;
+      rc = cache_push(ch, lp, b, v);
       if (rc)
-        return rc;
+        goto out;
+      if (k == ctcap) {
+        size_t cap = ch->capcache;
+        double *a = realloc(ct, cap * sizeof *a);
+        if (!a) {
+          rc = TWOFOLD_ENOMEM;
+          goto out;
+        }
+        ch->ct = ct = a;
+        ch->ctcap = ctcap = cap;
+      }
+      /* tf_lsum_add, keeping e^{term - am} */
       double term = lp + lg + ch->Q[e + 1];
-      tf_lsum_add(&am, &as, term);
+      if (term == -INFINITY) {
+        ct[k] = 0;
+      } else if (term <= am) {
+        double q = exp(term - am);
+        as += q;
+        ct[k] = q;
+      } else {
+        as = am == -INFINITY ? 1 : as * exp(am - term) + 1;
+        am = term;
+        ct[k] = 1;
+        mi[nm] = L - 1;
+        mv[nm++] = am;
+      }
       if (e + 1 < n && L >= (size_t)ch->opt.min_seg && am > -INFINITY) {
         /* bound < eps * sum, with log sum in [am, am + log nterm] and
          * nterm <= n: the log is needed only between am and am + lnmax */
@@ -545,8 +595,20 @@ static int backward(twofold_changes *ch) {
     }
     ch->stop[t] = e < n ? e : n - 1;
     ch->Q[t] = tf_lsum_log(am, as);
+    /* T = e^{term - m} e^{m - Q(t)} */
+    size_t ne = ch->stop[t] - t + 1;
+    double *c = ct + ch->off[t];
+    for (size_t j = 0; j < nm; j++) {
+      size_t to = j + 1 < nm ? mi[j + 1] : ne;
+      double f = exp(mv[j] - ch->Q[t]);
+      for (size_t i = mi[j]; i < to; i++)
+        c[i] *= f;
+    }
   }
-  return 0;
+out:
+  free(mi);
+  free(mv);
+  return rc;
 }
 
 static inline size_t cidx(const twofold_changes *ch, size_t s, size_t e) {
@@ -567,7 +629,7 @@ static void axpy(double *restrict y, const double *restrict x, double a,
     y[i] += a * x[i];
 }
 
-int tf_cp_results(twofold_changes *ch, const double *cw) {
+int tf_cp_results(twofold_changes *ch, const double *cw, const double *ct) {
   size_t n = ch->n;
   int K = ch->opt.max_changes;
   double lZ = ch->Q[0];
@@ -588,7 +650,8 @@ int tf_cp_results(twofold_changes *ch, const double *cw) {
    * segment probability (METHODS A2) is then W Pr(change on day e+1 | y).
    * Otherwise the backward quantities alone: T = Pr(the segment starting
    * at s ends at e | a change at s, y) = P(s,e) g(e-s+1) Q(e+1) / Q(s),
-   * one exp per candidate, and the segment probability pr[s] T.
+   * from ct (backward()) or one exp per candidate, and the segment
+   * probability pr[s] T.
    * Growth: segment weights into difference arrays (METHODS A2).
    * Number of changes (METHODS A2): the ratios r_j(t) = F_j(t) / F(t) obey
    * r_{j+1}(e+1) = sum_s r_j(s) W(s, e), and Pr(K = j | y) =
@@ -645,11 +708,12 @@ int tf_cp_results(twofold_changes *ch, const double *cw) {
       } else if ((lp = ch->clogP[k]) == -INFINITY) {
         continue;
       } else if (e + 1 < n) {
-        W = exp(lp + tf_lg(&ch->lp, s, e - s + 1) + ch->Q[e + 1] - qs);
+        W = ct ? ct[k]
+               : exp(lp + tf_lg(&ch->lp, s, e - s + 1) + ch->Q[e + 1] - qs);
         w = prs * W;
         pr[e + 1] += w;
       } else {
-        W = exp(lp + tf_lsurv(&ch->lp, s, n - s) - qs);
+        W = ct ? ct[k] : exp(lp + tf_lsurv(&ch->lp, s, n - s) - qs);
         w = prs * W;
       }
       if (W == 0)
@@ -879,6 +943,8 @@ int twofold_changes_run(twofold_changes *ch, const twofold_cp_options *o,
     return fail(ch, rc);
   if (!(ch->opt.kind == TWOFOLD_CP_KINK && ch->opt.grid == 0))
     pool_free(ch); /* only KINK by Laplace messages uses the kept buffers */
+  if (ch->opt.kind == TWOFOLD_CP_KINK)
+    ct_free(ch); /* and only JUMP and LEVEL this one */
   if (ch->opt.kind == TWOFOLD_CP_KINK && ch->opt.grid > 0) {
     rc = tf_kink_run(ch);
     if (rc)
@@ -894,9 +960,8 @@ int twofold_changes_run(twofold_changes *ch, const twofold_cp_options *o,
     if (!ch->Q || !ch->stop || !ch->off)
       return fail(ch, TWOFOLD_ENOMEM);
     rc = backward(ch);
-    if (rc)
-      return fail(ch, rc);
-    rc = tf_cp_results(ch, NULL);
+    if (!rc)
+      rc = tf_cp_results(ch, NULL, ch->ct);
     if (rc)
       return fail(ch, rc);
   }
@@ -1124,6 +1189,7 @@ int twofold_changes_shrink(twofold_changes *ch) {
   }
   ch->cache_pooled = 0;
   pool_free(ch);
+  ct_free(ch);
   ch->clogP = ch->cb = ch->cv = NULL;
   ch->ncache = ch->capcache = 0;
   tf_kink_free(ch->kink);

@@ -81,6 +81,18 @@ static inline double tf_sumty(const tf_cpdata *d, size_t s, size_t e) {
 void tf_esums(const tf_cpdata *d, size_t s, size_t e, double c, double b,
               double *logE0, double *m1, double *m2);
 
+/* e^z for |z| <= 0.02 by its Taylor polynomial of degree 7 (remainder
+ * below 7e-19 relative) */
+static inline double tf_expsmall(double z) {
+  return 1 +
+         z * (1 + z * 0.5 *
+                      (1 + z * (1.0 / 3) *
+                               (1 + z * 0.25 *
+                                        (1 + z * 0.2 *
+                                                 (1 + z * (1.0 / 6) *
+                                                          (1 + z * (1.0 / 7)))))));
+}
+
 /* ---- power sums, shared by tf_psum (JUMP) and tf_ksums (KINK) ---------
  *
  * For a segment start, A_k = sum_t w_t v_t^k over its present days, v_t
@@ -392,6 +404,10 @@ struct twofold_changes {
   double *pool[4];
   size_t poolcap;
   int cache_pooled;
+  /* JUMP and LEVEL: T(s, e) per cache entry from the backward pass, for
+   * tf_cp_results (capacity ctcap, kept from run to run) */
+  double *ct;
+  size_t ctcap;
   /* results */
   double *pch, *gmean, *gsd; /* n each */
   double *kprob;             /* max_changes + 1 */
@@ -414,8 +430,12 @@ int tf_kinkl_run(struct twofold_changes *ch);
  * NULL: per cache entry the weight W(s, e) of the segment given that a
  * segment ends at e (given y for e = n-1), as the forward pass of KINK
  * computes it, with Fa[0..n-1] filled by the same pass; otherwise the
- * pass takes the backward quantities alone (one exp per candidate). */
-int tf_cp_results(struct twofold_changes *ch, const double *cw);
+ * pass takes the backward quantities alone: ct, if not NULL, per cache
+ * entry T(s, e) = P(s, e) g(e-s+1) Q(e+1) / Q(s) as the JUMP and LEVEL
+ * backward pass leaves it (0 where impossible), else one exp per
+ * candidate. */
+int tf_cp_results(struct twofold_changes *ch, const double *cw,
+                  const double *ct);
 void tf_kink_free(struct tf_kink *k);
 int tf_kink_sample(const struct twofold_changes *ch, uint64_t seed,
                    size_t draws, unsigned char *change, double *rate,

@@ -47,7 +47,11 @@
  * these weights, so that the backward pass is one in probabilities,
  * without an exp (tf_kinkl_run).  The fit's usual path (the warm start,
  * one evaluation, converged) is inline; the rest (further Newton steps,
- * the retry, the fallback) is kl_rest.  With these P(s, e) the posterior
+ * the retry, the fallback) is kl_rest.  The forward pass takes the fits
+ * of eight starts at a time part by part (the power sums and warm starts
+ * of all eight, then their evaluations, then their ends), which gives
+ * the processor independent work where one fit is a chain of dependent
+ * steps: the same operations, about 9% less time.  With these P(s, e) the posterior
  * is that of independent segments, so the count, most-probable and
  * sampling recursions of the JUMP and LEVEL kinds are reused unchanged.
  *
@@ -75,6 +79,8 @@
 #include <string.h>
 
 #define KL_PRUNE_RUN 14
+/* starts whose fits the forward pass takes part by part together (kl_begin) */
+#define KL_CHUNK 8
 #define KL_CACHE_LIMIT ((size_t)200000000)
 /* series up to this length have their segment cache written in place */
 #define KL_DIRECT_DAYS 2048
@@ -220,18 +226,6 @@ static void ks_extend(const tf_cpdata *d, tf_ksums *ks, size_t s, size_t e) {
   ks->e = e;
 }
 
-/* e^z for |z| <= 0.02 by its Taylor polynomial of degree 7 (remainder
- * below 7e-19 relative) */
-static inline double kl_expsmall(double z) {
-  return 1 +
-         z * (1 + z * 0.5 *
-                      (1 + z * (1.0 / 3) *
-                               (1 + z * 0.25 *
-                                        (1 + z * 0.2 *
-                                                 (1 + z * (1.0 / 6) *
-                                                          (1 + z * (1.0 / 7)))))));
-}
-
 /* One segment's evaluation context. */
 typedef struct kl_ctx {
   const tf_cpdata *d;
@@ -277,7 +271,7 @@ static inline void kl_eval_at(kl_ctx *x, double a, double b, kl_eval *r) {
   if (x->ks && ks_sums(x, b, E)) {
     double za = a - x->a0, ea;
     if (fabs(za) <= 0.02) {
-      ea = x->ea0 * kl_expsmall(za);
+      ea = x->ea0 * tf_expsmall(za);
     } else {
       x->a0 = a;
       x->ea0 = ea = exp(a);
@@ -463,8 +457,16 @@ fallback:
   return -INFINITY;
 }
 
-double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
-                         double v, kl_fit *fit) {
+/* tf_seg_kink in parts, so that the forward pass can take each part for a
+ * run of starts in turn (independent work side by side, where one start
+ * at a time is a chain of dependent steps): kl_begin sets the context *xp
+ * and the starting values (*ap, *bp) and extends the power sums to e;
+ * kl_warm moves the start by the new day's term; kl_eval_at evaluates
+ * there; kl_end finishes from that evaluation.  One start's parts in a
+ * row are tf_seg_kink. */
+static inline void kl_begin(const tf_cpdata *d, size_t s, size_t e, double m,
+                            double v, kl_fit *fit, kl_ctx *xp, double *ap,
+                            double *bp) {
   double c = (double)s - 1;
   double Y = tf_sumy(d, s, e), S1 = tf_sumty(d, s, e) - c * Y;
   double L = (double)(e - s + 1);
@@ -493,13 +495,23 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
     if (ks->live)
       x.ks = ks;
   }
+  *xp = x;
+  *ap = a;
+  *bp = b;
+}
+
+static inline void kl_warm(const tf_cpdata *d, size_t s, size_t e,
+                           kl_fit *fit, const kl_ctx *xp, double *ap,
+                           double *bp) {
+  const kl_ctx *x = xp;
+  double a = *ap, b = *bp, L = x->L, iphi = x->iphi;
   if (fit->next == e && e > s && tf_finite2(fit->a, fit->b)) {
     /* warm start: one Newton step from the mode of [s, e-1] for the new
      * day's term alone, with the Hessian kept from that fit (the gradient
      * of the rest is zero there to the tolerance below) */
     if (!tf_isnan(d->y[e])) {
       double ex = exp(a + b * L);
-      double h = d->wcls[x.ks ? x.ks->cls : tf_cls(d, e)] * ex * iphi;
+      double h = d->wcls[x->ks ? x->ks->cls : tf_cls(d, e)] * ex * iphi;
       double g = d->y[e] * iphi - h;
       double haa = fit->haa + h, hab = fit->hab + h * L,
              hbb = fit->hbb + h * L * L;
@@ -510,8 +522,8 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
          * -D3P[d, d] / 2 from the third derivatives of P = e^a E0 / phi
          * (P, P m1, P m2, P m3, the day's terms included), taken out by
          * the same Hessian */
-        double L2 = L * L, P0 = fit->haa - x.iv + h, P1 = hab,
-               P2 = hbb - x.irsd2, P3 = fit->p3 + h * L2 * L;
+        double L2 = L * L, P0 = fit->haa - x->iv + h, P1 = hab,
+               P2 = hbb - x->irsd2, P3 = fit->p3 + h * L2 * L;
         double ra = -0.5 * (P0 * da * da + 2 * P1 * da * db + P2 * db * db);
         double rb = -0.5 * (P1 * da * da + 2 * P2 * da * db + P3 * db * db);
         da += (hbb * ra - hab * rb) * idet;
@@ -531,8 +543,15 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
   }
   fit->pa = fit->a;
   fit->pb = fit->b;
-  kl_eval r;
-  kl_eval_at(&x, a, b, &r);
+  *ap = a;
+  *bp = b;
+}
+
+static inline double kl_end(const tf_cpdata *d, size_t s, size_t e,
+                            double m, double v, kl_fit *fit, kl_ctx *xp,
+                            double a, double b, const kl_eval *rp) {
+  kl_eval r = *rp;
+  double L = xp->L;
   if (r.f != -INFINITY) {
     /* the common case: the first Newton step from the warm start is
      * already below the tolerance (as in kl_rest's first pass) */
@@ -542,14 +561,25 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
     if (tf_finite2(da, db)) {
       double lambda2 = r.ga * da + r.gb * db;
       if (lambda2 < 1e-6) {
-        double lp = kl_finish(d, e, v, L, fit, &x, a + da, b + db,
+        double lp = kl_finish(d, e, v, L, fit, xp, a + da, b + db,
                               r.f + 0.5 * lambda2, &r, idet);
         if (!isnan(lp))
           return lp;
       }
     }
   }
-  return kl_rest(d, s, e, m, v, fit, x, a, b, r);
+  return kl_rest(d, s, e, m, v, fit, *xp, a, b, r);
+}
+
+double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
+                   double v, kl_fit *fit) {
+  kl_ctx x;
+  kl_eval r;
+  double a, b;
+  kl_begin(d, s, e, m, v, fit, &x, &a, &b);
+  kl_warm(d, s, e, fit, &x, &a, &b);
+  kl_eval_at(&x, a, b, &r);
+  return kl_end(d, s, e, m, v, fit, &x, a, b, &r);
 }
 
 /* e-major entries before they are put in per-start order. */
@@ -657,6 +687,9 @@ static int kl_forward(twofold_changes *ch, kl_work *w, kl_entries *E) {
   const tf_lenprior *lp = &ch->lp;
   size_t n = ch->n, na = 0;
   double eps = ch->opt.prune > 0 ? ch->opt.prune : 0;
+  kl_ctx cx[KL_CHUNK];
+  kl_eval cr[KL_CHUNK];
+  double ca[KL_CHUNK], cb[KL_CHUNK], clp[KL_CHUNK];
   for (size_t i = 0; i <= n; i++)
     ch->Fa[i] = -INFINITY;
   ch->Fa[0] = 0;
@@ -679,9 +712,27 @@ static int kl_forward(twofold_changes *ch, kl_work *w, kl_entries *E) {
     }
     double ref = -INFINITY;
     for (size_t i = 0; i < na; i++) {
+      if (i % KL_CHUNK == 0) {
+        /* the next chunk's fits, each part for every start of the chunk
+         * in turn (tf_seg_kink, start by start, to the bit) */
+        size_t nc = na - i < KL_CHUNK ? na - i : KL_CHUNK;
+        for (size_t j = 0; j < nc; j++) {
+          size_t s = w->act[i + j];
+          kl_begin(d, s, e, w->mm[s], w->mv[s], &w->fit[s], &cx[j], &ca[j],
+                   &cb[j]);
+          kl_warm(d, s, e, &w->fit[s], &cx[j], &ca[j], &cb[j]);
+        }
+        for (size_t j = 0; j < nc; j++)
+          kl_eval_at(&cx[j], ca[j], cb[j], &cr[j]);
+        for (size_t j = 0; j < nc; j++) {
+          size_t s = w->act[i + j];
+          clp[j] = kl_end(d, s, e, w->mm[s], w->mv[s], &w->fit[s], &cx[j],
+                          ca[j], cb[j], &cr[j]);
+        }
+      }
       size_t s = w->act[i], L = e - s + 1;
       kl_fit *f = &w->fit[s];
-      double lps = tf_seg_kink(d, s, e, w->mm[s], w->mv[s], f);
+      double lps = clp[i % KL_CHUNK];
       if (w->direct) {
         size_t k = ch->off[s] + (e - s);
         ch->clogP[k] = lps;
@@ -942,7 +993,7 @@ int tf_kinkl_run(twofold_changes *ch) {
                     n);
     goto out;
   }
-  rc = tf_cp_results(ch, w.cw);
+  rc = tf_cp_results(ch, w.cw, NULL);
   w.cw = NULL;
   if (rc)
     goto out;

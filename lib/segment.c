@@ -744,6 +744,7 @@ double tf_seg_jump_ps(const tf_cpdata *d, tf_psum *p, size_t e, double *bio,
   double isd = 1 / d->rsd, isd2 = isd * isd, S1p = S1 * iphi;
   double span = p->umax + 1;
   double b0 = isfinite(*bio) ? *bio : d->rmean, b = b0, af1p = INFINITY;
+  double wg = NAN, wbg = NAN; /* e^{-wbg h}, exact, for e^{-b h} near it */
   int coarse = 1;
   if (p->wok && p->wend + 1 == e) {
     /* warm start from the last evaluation for [s, e-1]: its sums at wb
@@ -767,6 +768,8 @@ double tf_seg_jump_ps(const tf_cpdata *d, tf_psum *p, size_t e, double *bio,
         fabs(q.step) <= 0.1) {
       b = wb + q.step;
       coarse = 0;
+      wg = g;
+      wbg = wb;
     }
   }
   p->wok = 0;
@@ -781,7 +784,10 @@ double tf_seg_jump_ps(const tf_cpdata *d, tf_psum *p, size_t e, double *bio,
     if (rc != 0 || !(E[0] > 0) || !(E[0] <= DBL_MAX))
       break;
     jps_der q;
-    double eh = exp(-b * h);
+    /* e^{-b h}: after the warm start, from its e^{-wb h} times the short
+     * series for the step (|b - wb| h <= 0.02 for most candidates) */
+    double zh = (wbg - b) * h;
+    double eh = fabs(zh) <= 0.02 ? wg * tf_expsmall(zh) : exp(-b * h);
     if (jps_derivs(E, eh, b, h, iphi, beta, ap, S1p, d->rmean, isd, isd2,
                    &q))
       break;
