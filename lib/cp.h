@@ -173,8 +173,9 @@ static inline void tf_pow_shift4(const double *A, int n, double q,
  * so that for any b near bref (delta = b - bref, rho = |delta| umax)
  *   E_j(b) = sum_t w_t u^j e^{b u}
  *          = TF_PSUM_SCALE^j sum_k (TF_PSUM_SCALE delta)^k / k! A_{j+k}.
- * The series is cut at the first k with rho^k / k! e^{2 rho} < 2^-56, a
- * bound on the remainder relative to E_j; tf_psum_eval refuses when that
+ * The series is cut at 12, 16 or 19 terms, the first of these with
+ * rho^k / k! e^{2 rho} < 2^-56 at k terms, a bound on the remainder
+ * relative to E_j; tf_psum_eval refuses when that
  * needs more terms than stored or rho > 1 (then re-anchor).  With rho <= 1
  * an alternating series loses at most 3 bits to cancellation; E_j is
  * within 1e-14 (1 + |b| umax) relative of the direct sum, the rounding of
@@ -251,7 +252,6 @@ double tf_seg_jump(const tf_cpdata *d, size_t s, size_t e, double *b,
 typedef struct tf_ksums {
   int live;      /* 1: A holds the days s..e                          */
   int cls;       /* weekday class of day e                            */
-  int nlast;     /* terms of the last evaluation (a search's start)   */
   size_t e;      /* last day added                                    */
   double bref;   /* reference growth rate                             */
   double eb, z;  /* e^{bref} and e^{bref (e - s + 1)}                 */

@@ -334,7 +334,7 @@ direct:
 
 /* ---- incremental power sums (cp.h: tf_psum) --------------------------- */
 
-/* The Taylor shift keeps the terms k = 0..n-1 with n the least such that
+/* The Taylor shift keeps the terms k = 0..n-1, n one of 12, 16 or 19 with
  * rho^n / n! e^{2 rho} < 2^-56, a bound on the remainder relative to E_j
  * (each omitted term is at most rho^k / k! A_j SCALE^j and
  * E_j >= e^{-rho} A_j SCALE^j); psum_rmax[n-1] is the largest rho for n
@@ -419,15 +419,11 @@ static int psum_eval(const tf_psum *p, double b, int nmom, double *E,
   double del = b - p->bref, rho = fabs(del) * p->umax;
   if (!(rho <= PSUM_RHO))
     return 1; /* also for NaN */
-  /* n - 1 = the first index with rho <= rmax (a branch-free binary
-   * search of the table, padded to 32 with infinities) */
-  int pos = 0;
-  pos += (rmax[pos + 15] < rho) << 4;
-  pos += (rmax[pos + 7] < rho) << 3;
-  pos += (rmax[pos + 3] < rho) << 2;
-  pos += (rmax[pos + 1] < rho) << 1;
-  pos += rmax[pos] < rho;
-  int n = pos + 1;
+  /* n terms with rho <= rmax[n - 1], n from 12, 16, 19 (20: too far):
+   * more terms than the fewest, but the same count for most of the
+   * evaluations, so that the processor predicts the series' loop (about
+   * 8% less time for JUMP than the fewest terms) */
+  int n = rmax[11] >= rho ? 12 : rmax[15] >= rho ? 16 : rmax[18] >= rho ? 19 : 20;
   if (n > TF_PSUM_N - TF_PSUM_NMOM + 1)
     return 1;
   double acc[4];
