@@ -415,7 +415,7 @@ static void changes_clear(twofold_changes *ch) {
   tf_kink_free(ch->kink);
   ch->Q = ch->Fa = NULL;
   ch->stop = ch->off = NULL;
-  ch->clogP = ch->cb = ch->cv = NULL;
+  ch->clogP = ch->cb = ch->cv = ch->ct = NULL;
   ch->pch = ch->gmean = ch->gsd = ch->kprob = NULL;
   ch->mapstart = NULL;
   ch->mapb = ch->mapbsd = ch->maplvl = NULL;
@@ -436,11 +436,15 @@ static void pool_free(twofold_changes *ch) {
   ch->poolcap = 0;
 }
 
-/* The buffer of backward()'s T values, kept between JUMP and LEVEL runs. */
-static void ct_free(twofold_changes *ch) {
-  free(ch->ct);
-  ch->ct = NULL;
-  ch->ctcap = 0;
+/* The JUMP and LEVEL cache (log P, b, its variance and backward()'s T per
+ * candidate), kept between runs so that a daily job over many regions does
+ * not take fresh pages for every series (as the KINK pool). */
+static void jbuf_free(twofold_changes *ch) {
+  for (int i = 0; i < 4; i++) {
+    free(ch->jbuf[i]);
+    ch->jbuf[i] = NULL;
+  }
+  ch->jbufcap = 0;
 }
 
 void twofold_changes_free(twofold_changes *ch) {
@@ -448,7 +452,7 @@ void twofold_changes_free(twofold_changes *ch) {
     return;
   changes_clear(ch);
   pool_free(ch);
-  ct_free(ch);
+  jbuf_free(ch);
   tf_lenprior_free(&ch->lp);
   free(ch);
 }
@@ -461,9 +465,14 @@ static int fail(twofold_changes *ch, int code) {
   return code;
 }
 
-static int cache_push(twofold_changes *ch, double lp, double b, double v) {
-  if (ch->ncache == ch->capcache) {
-    size_t cap = ch->capcache ? 2 * ch->capcache : 4096;
+/* Room for one more JUMP or LEVEL candidate in the kept buffers (clogP,
+ * cb, cv and ct point into them; cache_pooled, so not freed with the
+ * results). */
+static int cache_room(twofold_changes *ch) {
+  if (ch->ncache < ch->capcache)
+    return 0;
+  if (ch->ncache >= ch->jbufcap) {
+    size_t cap = ch->jbufcap ? 2 * ch->jbufcap : 4096;
     if (cap > CACHE_LIMIT)
       cap = CACHE_LIMIT;
     if (cap <= ch->ncache)
@@ -471,22 +480,27 @@ static int cache_push(twofold_changes *ch, double lp, double b, double v) {
                         "more than %zu candidate segments survive pruning; "
                         "raise the pruning threshold or shorten the series",
                         (size_t)CACHE_LIMIT);
-    double *a = realloc(ch->clogP, cap * sizeof(double));
-    if (!a)
-      return TWOFOLD_ENOMEM;
-    ch->clogP = a;
-    if (ch->d.kind == TWOFOLD_CP_JUMP) {
-      a = realloc(ch->cb, cap * sizeof(double));
+    for (int i = 0; i < 4; i++) {
+      double *a = realloc(ch->jbuf[i], cap * sizeof(double));
       if (!a)
         return TWOFOLD_ENOMEM;
-      ch->cb = a;
-      a = realloc(ch->cv, cap * sizeof(double));
-      if (!a)
-        return TWOFOLD_ENOMEM;
-      ch->cv = a;
+      ch->jbuf[i] = a;
     }
-    ch->capcache = cap;
+    ch->jbufcap = cap;
   }
+  ch->clogP = ch->jbuf[0];
+  ch->cb = ch->jbuf[1];
+  ch->cv = ch->jbuf[2];
+  ch->ct = ch->jbuf[3];
+  ch->cache_pooled = 1;
+  ch->capcache = ch->jbufcap;
+  return 0;
+}
+
+static int cache_push(twofold_changes *ch, double lp, double b, double v) {
+  int rc = cache_room(ch);
+  if (rc)
+    return rc;
   ch->clogP[ch->ncache] = lp;
   if (ch->d.kind == TWOFOLD_CP_JUMP) {
     ch->cb[ch->ncache] = b;
@@ -513,8 +527,6 @@ static int backward(twofold_changes *ch) {
   const tf_cpdata *d = &ch->d;
   double leps = ch->opt.prune > 0 ? log(ch->opt.prune) : -INFINITY;
   double lnmax = log((double)n + 1);
-  size_t ctcap = ch->ctcap;
-  double *ct = ch->ct;
   /* where the running largest changed for the current start: entry index
    * and the new largest */
   size_t *mi = malloc(n * sizeof *mi);
@@ -554,16 +566,7 @@ static int backward(twofold_changes *ch) {
       rc = cache_push(ch, lp, b, v);
       if (rc)
         goto out;
-      if (k == ctcap) {
-        size_t cap = ch->capcache;
-        double *a = realloc(ct, cap * sizeof *a);
-        if (!a) {
-          rc = TWOFOLD_ENOMEM;
-          goto out;
-        }
-        ch->ct = ct = a;
-        ch->ctcap = ctcap = cap;
-      }
+      double *ct = ch->ct;
       /* tf_lsum_add, keeping e^{term - am} */
       double term = lp + lg + ch->Q[e + 1];
       if (term == -INFINITY) {
@@ -597,7 +600,7 @@ static int backward(twofold_changes *ch) {
     ch->Q[t] = tf_lsum_log(am, as);
     /* T = e^{term - m} e^{m - Q(t)} */
     size_t ne = ch->stop[t] - t + 1;
-    double *c = ct + ch->off[t];
+    double *c = ch->ct + ch->off[t];
     for (size_t j = 0; j < nm; j++) {
       size_t to = j + 1 < nm ? mi[j + 1] : ne;
       double f = exp(mv[j] - ch->Q[t]);
@@ -944,7 +947,7 @@ int twofold_changes_run(twofold_changes *ch, const twofold_cp_options *o,
   if (!(ch->opt.kind == TWOFOLD_CP_KINK && ch->opt.grid == 0))
     pool_free(ch); /* only KINK by Laplace messages uses the kept buffers */
   if (ch->opt.kind == TWOFOLD_CP_KINK)
-    ct_free(ch); /* and only JUMP and LEVEL this one */
+    jbuf_free(ch); /* and only JUMP and LEVEL these */
   if (ch->opt.kind == TWOFOLD_CP_KINK && ch->opt.grid > 0) {
     rc = tf_kink_run(ch);
     if (rc)
@@ -1189,8 +1192,8 @@ int twofold_changes_shrink(twofold_changes *ch) {
   }
   ch->cache_pooled = 0;
   pool_free(ch);
-  ct_free(ch);
-  ch->clogP = ch->cb = ch->cv = NULL;
+  jbuf_free(ch);
+  ch->clogP = ch->cb = ch->cv = ch->ct = NULL;
   ch->ncache = ch->capcache = 0;
   tf_kink_free(ch->kink);
   ch->kink = NULL;

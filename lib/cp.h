@@ -404,10 +404,12 @@ struct twofold_changes {
   double *pool[4];
   size_t poolcap;
   int cache_pooled;
-  /* JUMP and LEVEL: T(s, e) per cache entry from the backward pass, for
-   * tf_cp_results (capacity ctcap, kept from run to run) */
+  /* JUMP and LEVEL: ct, T(s, e) per cache entry from the backward pass
+   * for tf_cp_results; clogP, cb, cv and ct point into jbuf (capacity
+   * jbufcap entries each), kept from run to run */
   double *ct;
-  size_t ctcap;
+  double *jbuf[4];
+  size_t jbufcap;
   /* results */
   double *pch, *gmean, *gsd; /* n each */
   double *kprob;             /* max_changes + 1 */
