@@ -471,11 +471,12 @@ static inline void kl_begin(const tf_cpdata *d, size_t s, size_t e, double m,
     fit->iv = 1 / v;
   }
   double iphi = d->iphi;
-  kl_ctx x = {d, s, e, c, Y, S1, m, v, L, iphi, fit->iv, d->irsd2, NULL,
-              fit->a0, fit->ea0};
-  if (!(x.ea0 > 0)) {
-    x.a0 = a;
-    x.ea0 = exp(a);
+  kl_ctx *x = xp;
+  *x = (kl_ctx){d, s, e, c, Y, S1, m, v, L, iphi, fit->iv, d->irsd2, NULL,
+                fit->a0, fit->ea0};
+  if (!(x->ea0 > 0)) {
+    x->a0 = a;
+    x->ea0 = exp(a);
   }
   if (e - s < KL_KS_MAXLEN) {
     tf_ksums *ks = &fit->ks;
@@ -486,9 +487,8 @@ static inline void kl_begin(const tf_cpdata *d, size_t s, size_t e, double m,
     else
       ks->live = 0;
     if (ks->live)
-      x.ks = ks;
+      x->ks = ks;
   }
-  *xp = x;
   *ap = a;
   *bp = b;
 }
