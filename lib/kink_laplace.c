@@ -817,15 +817,16 @@ static int kl_forward(twofold_changes *ch, kl_work *w, kl_entries *E) {
     if (e + 1 < n && eps > 0) {
       double bound = eps * tot;
       size_t k = 0;
+      /* without branches on the weights (which the processor cannot
+       * predict): the run grows or restarts, the start is kept or not */
+      size_t ms = (size_t)ch->opt.min_seg;
       for (size_t i = 0; i < na; i++) {
         size_t s = w->act[i], L = e - s + 1;
-        if (L >= (size_t)ch->opt.min_seg && w->qs[i] < bound) {
-          if (++w->run[s] >= KL_PRUNE_RUN)
-            continue; /* dropped */
-        } else {
-          w->run[s] = 0;
-        }
-        w->act[k++] = s;
+        size_t below = (size_t)((L >= ms) & (w->qs[i] < bound));
+        size_t r = (w->run[s] + 1) * below;
+        w->run[s] = r;
+        w->act[k] = s;
+        k += r < KL_PRUNE_RUN; /* else dropped */
       }
       na = k;
     }
