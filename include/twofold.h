@@ -809,7 +809,8 @@ TWOFOLD_API int twofold_changes_map_segment(const twofold_changes *ch,
 /* Free the memory kept only for twofold_changes_sample (the candidate
  * segments of the recursions: a few MB for a two-year series), for callers
  * that hold many posteriors at once (without it, the next run of the same
- * object with kink segments reuses those buffers).  Every other getter
+ * object reuses those buffers, for any segment kind but kink by the grid
+ * method).  Every other getter
  * keeps working; twofold_changes_sample then gives TWOFOLD_EINVAL until
  * the next run. */
 TWOFOLD_API int twofold_changes_shrink(twofold_changes *ch);
