@@ -452,11 +452,10 @@ fallback:
 
 /* tf_seg_kink in parts, so that the forward pass can take each part for a
  * run of starts in turn (independent work side by side, where one start
- * at a time is a chain of dependent steps): kl_begin sets the context *xp
- * and the starting values (*ap, *bp) and extends the power sums to e;
- * kl_warm moves the start by the new day's term; kl_eval_at evaluates
- * there; kl_end finishes from that evaluation.  One start's parts in a
- * row are tf_seg_kink. */
+ * at a time is a chain of dependent steps): kl_begin sets the context *xp,
+ * extends the power sums to e and makes the warm start (*ap, *bp);
+ * kl_eval_at evaluates there; kl_end finishes from that evaluation.  One
+ * start's parts in a row are tf_seg_kink. */
 static inline void kl_begin(const tf_cpdata *d, size_t s, size_t e, double m,
                             double v, kl_fit *fit, kl_ctx *xp, double *ap,
                             double *bp) {
@@ -489,15 +488,6 @@ static inline void kl_begin(const tf_cpdata *d, size_t s, size_t e, double m,
     if (ks->live)
       x->ks = ks;
   }
-  *ap = a;
-  *bp = b;
-}
-
-static inline void kl_warm(const tf_cpdata *d, size_t s, size_t e,
-                           kl_fit *fit, const kl_ctx *xp, double *ap,
-                           double *bp) {
-  const kl_ctx *x = xp;
-  double a = *ap, b = *bp, L = x->L, iphi = x->iphi;
   if (fit->next == e && e > s && tf_finite2(fit->a, fit->b)) {
     /* warm start: one Newton step from the mode of [s, e-1] for the new
      * day's term alone, with the Hessian kept from that fit (the gradient
@@ -570,7 +560,6 @@ double tf_seg_kink(const tf_cpdata *d, size_t s, size_t e, double m,
   kl_eval r;
   double a, b;
   kl_begin(d, s, e, m, v, fit, &x, &a, &b);
-  kl_warm(d, s, e, fit, &x, &a, &b);
   kl_eval_at(&x, a, b, &r);
   return kl_end(d, s, e, m, v, fit, &x, a, b, &r);
 }
@@ -713,7 +702,6 @@ static int kl_forward(twofold_changes *ch, kl_work *w, kl_entries *E) {
           size_t s = w->act[i + j];
           kl_begin(d, s, e, w->mm[s], w->mv[s], &w->fit[s], &cx[j], &ca[j],
                    &cb[j]);
-          kl_warm(d, s, e, &w->fit[s], &cx[j], &ca[j], &cb[j]);
         }
         for (size_t j = 0; j < nc; j++)
           kl_eval_at(&cx[j], ca[j], cb[j], &cr[j]);
