@@ -415,7 +415,7 @@ static void changes_clear(twofold_changes *ch) {
   tf_kink_free(ch->kink);
   ch->Q = ch->Fa = NULL;
   ch->stop = ch->off = NULL;
-  ch->clogP = ch->cb = ch->cv = ch->ct = NULL;
+  ch->clogP = ch->cb = ch->cv = NULL;
   ch->pch = ch->gmean = ch->gsd = ch->kprob = NULL;
   ch->mapstart = NULL;
   ch->mapb = ch->mapbsd = ch->maplvl = NULL;
@@ -466,7 +466,7 @@ static int fail(twofold_changes *ch, int code) {
 }
 
 /* Room for one more JUMP or LEVEL candidate in the kept buffers (clogP,
- * cb, cv and ct point into them; cache_pooled, so not freed with the
+ * cb and cv point into them; cache_pooled, so not freed with the
  * results). */
 static int cache_room(twofold_changes *ch) {
   if (ch->ncache < ch->capcache)
@@ -491,7 +491,6 @@ static int cache_room(twofold_changes *ch) {
   ch->clogP = ch->jbuf[0];
   ch->cb = ch->jbuf[1];
   ch->cv = ch->jbuf[2];
-  ch->ct = ch->jbuf[3];
   ch->cache_pooled = 1;
   ch->capcache = ch->jbufcap;
   return 0;
@@ -516,12 +515,12 @@ static inline double seg_prior(const twofold_changes *ch, size_t s, size_t e) {
   return e + 1 < ch->n ? tf_lg(&ch->lp, s, L) : tf_lsurv(&ch->lp, s, L);
 }
 
-/* The backward recursion (METHODS A2), which also leaves in ch->ct, per cache
- * entry, T(s, e) = P(s, e) g(e - s + 1) Q(e + 1) / Q(s) (0 where
+/* The backward recursion (METHODS A2), which also leaves in ch->jbuf[3],
+ * per cache entry, T(s, e) = P(s, e) g(e - s + 1) Q(e + 1) / Q(s) (0 where
  * impossible) for tf_cp_results: each term is taken against the running
- * largest as the sum is formed, e^{term - m}, and multiplied by e^{m -
- * Q(s)} once Q(s) is known, one exp per change of m rather than one per
- * entry (a buffer kept from run to run). */
+ * largest as the sum is formed, e^{term - m} (tf_lsum_addq), and
+ * multiplied by e^{m - Q(s)} once Q(s) is known, one exp per change of m
+ * rather than one per entry. */
 static int backward(twofold_changes *ch) {
   size_t n = ch->n;
   const tf_cpdata *d = &ch->d;
@@ -566,19 +565,10 @@ static int backward(twofold_changes *ch) {
       rc = cache_push(ch, lp, b, v);
       if (rc)
         goto out;
-      double *ct = ch->ct;
-      /* tf_lsum_add, keeping e^{term - am} */
-      double term = lp + lg + ch->Q[e + 1];
-      if (term == -INFINITY) {
-        ct[k] = 0;
-      } else if (term <= am) {
-        double q = exp(term - am);
-        as += q;
-        ct[k] = q;
-      } else {
-        as = am == -INFINITY ? 1 : as * exp(am - term) + 1;
-        am = term;
-        ct[k] = 1;
+      /* the sum, keeping e^{term - am} and where am changed */
+      double am0 = am;
+      ch->jbuf[3][k] = tf_lsum_addq(&am, &as, lp + lg + ch->Q[e + 1]);
+      if (am != am0) {
         mi[nm] = L - 1;
         mv[nm++] = am;
       }
@@ -600,7 +590,7 @@ static int backward(twofold_changes *ch) {
     ch->Q[t] = tf_lsum_log(am, as);
     /* T = e^{term - m} e^{m - Q(t)} */
     size_t ne = ch->stop[t] - t + 1;
-    double *c = ch->ct + ch->off[t];
+    double *c = ch->jbuf[3] + ch->off[t];
     for (size_t j = 0; j < nm; j++) {
       size_t to = j + 1 < nm ? mi[j + 1] : ne;
       double f = exp(mv[j] - ch->Q[t]);
@@ -964,7 +954,7 @@ int twofold_changes_run(twofold_changes *ch, const twofold_cp_options *o,
       return fail(ch, TWOFOLD_ENOMEM);
     rc = backward(ch);
     if (!rc)
-      rc = tf_cp_results(ch, NULL, ch->ct);
+      rc = tf_cp_results(ch, NULL, ch->jbuf[3]);
     if (rc)
       return fail(ch, rc);
   }
@@ -1193,7 +1183,7 @@ int twofold_changes_shrink(twofold_changes *ch) {
   ch->cache_pooled = 0;
   pool_free(ch);
   jbuf_free(ch);
-  ch->clogP = ch->cb = ch->cv = ch->ct = NULL;
+  ch->clogP = ch->cb = ch->cv = NULL;
   ch->ncache = ch->capcache = 0;
   tf_kink_free(ch->kink);
   ch->kink = NULL;

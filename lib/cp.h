@@ -300,15 +300,23 @@ static inline double tf_lsurv(const tf_lenprior *lp, size_t s, size_t len) {
 /* A sum of exponentials kept as e^m * s with m the largest exponent so far
  * (start from m = -inf, s = 0): one exponential per term instead of the
  * exp and log1p of a pairwise tf_lse. */
-static inline void tf_lsum_add(double *m, double *s, double x) {
+static inline double tf_lsum_addq(double *m, double *s, double x) {
   if (x == -INFINITY)
-    return;
+    return 0;
   if (x <= *m) {
-    *s += exp(x - *m);
-  } else {
-    *s = *m == -INFINITY ? 1 : *s * exp(*m - x) + 1;
-    *m = x;
+    double q = exp(x - *m);
+    *s += q;
+    return q;
   }
+  *s = *m == -INFINITY ? 1 : *s * exp(*m - x) + 1;
+  *m = x;
+  return 1;
+}
+
+/* The same without the term's e^{x - m} (tf_lsum_addq returns it, against
+ * the largest m after the term). */
+static inline void tf_lsum_add(double *m, double *s, double x) {
+  (void)tf_lsum_addq(m, s, x);
 }
 
 static inline double tf_lsum_log(double m, double s) {
@@ -404,10 +412,9 @@ struct twofold_changes {
   double *pool[4];
   size_t poolcap;
   int cache_pooled;
-  /* JUMP and LEVEL: ct, T(s, e) per cache entry from the backward pass
-   * for tf_cp_results; clogP, cb, cv and ct point into jbuf (capacity
-   * jbufcap entries each), kept from run to run */
-  double *ct;
+  /* JUMP and LEVEL: clogP, cb and cv point into jbuf[0..2] (capacity
+   * jbufcap entries each), kept from run to run; jbuf[3] holds T(s, e)
+   * per cache entry from the backward pass, for tf_cp_results */
   double *jbuf[4];
   size_t jbufcap;
   /* results */

@@ -341,22 +341,20 @@ direct:
  * terms.  rho is capped at PSUM_RHO, where a series of alternating sign
  * loses at most a factor e^{2 rho} < 7.4 (3 bits) to cancellation. */
 #define PSUM_RHO 1.0
-static const double psum_rmax[32] = {
+static const double psum_rmax[TF_PSUM_N] = {
     1.387779e-17, 5.268356e-09, 4.366726e-06, 1.350839e-04, 1.106899e-03,
     4.633807e-03, 1.315366e-02, 2.919512e-02, 5.487567e-02, 9.167388e-02,
     1.404140e-01, 2.013630e-01, 2.743658e-01, 3.589766e-01, 4.545683e-01,
     5.604160e-01, 6.757565e-01, 7.998281e-01, 9.318959e-01, 1.071267e+00,
-    1.217298e+00, 1.369397e+00, INFINITY, INFINITY, INFINITY, INFINITY,
-    INFINITY, INFINITY, INFINITY, INFINITY, INFINITY, INFINITY};
+    1.217298e+00, 1.369397e+00};
 /* the same for a remainder below 1e-6 (first steps, which only set the
  * direction) */
-static const double psum_rmax_lo[32] = {
+static const double psum_rmax_lo[TF_PSUM_N] = {
     9.999980e-07, 1.412218e-03, 1.795499e-02, 6.766432e-02, 1.545229e-01,
     2.733105e-01, 4.169113e-01, 5.791717e-01, 7.554063e-01, 9.421904e-01,
     1.137040e+00, 1.338145e+00, 1.544169e+00, 1.754113e+00, 1.967220e+00,
     2.182909e+00, 2.400726e+00, 2.620315e+00, 2.841392e+00, 3.063728e+00,
-    3.287137e+00, 3.511466e+00, INFINITY, INFINITY, INFINITY, INFINITY,
-    INFINITY, INFINITY, INFINITY, INFINITY, INFINITY, INFINITY};
+    3.287137e+00, 3.511466e+00};
 static void psum_clear(tf_psum *p, double bref) {
   p->next = p->s;
   p->np = 0;
